@@ -1,0 +1,49 @@
+"""The `riskreg` command line."""
+
+from __future__ import annotations
+
+import sys
+
+import click
+
+from riskreg.engineering.derivation import InputError
+
+
+class CliError(click.ClickException):
+    """A bad argument or state: one line on stderr, exit status 2."""
+
+    exit_code = 2
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+def cli() -> None:
+    """riskreg: the machine-guarding risk register."""
+
+
+def _register_commands() -> None:
+    from .calc import calc
+
+    cli.add_command(calc)
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Entry point: every error is one line and exit status 2, never a traceback."""
+    _register_commands()
+    try:
+        rv = cli.main(args=argv, prog_name="riskreg", standalone_mode=False)
+    except click.exceptions.Abort:
+        click.echo("riskreg: aborted", err=True)
+        sys.exit(1)
+    except click.UsageError as exc:
+        hint = ""
+        if exc.ctx is not None:
+            hint = f" (see '{exc.ctx.command_path} --help')"
+        click.echo(f"riskreg: error: {exc.format_message()}{hint}", err=True)
+        sys.exit(2)
+    except click.ClickException as exc:
+        click.echo(f"riskreg: error: {exc.format_message()}", err=True)
+        sys.exit(exc.exit_code)
+    except InputError as exc:
+        click.echo(f"riskreg: error: {exc}", err=True)
+        sys.exit(2)
+    sys.exit(rv if isinstance(rv, int) else 0)
