@@ -1,0 +1,318 @@
+"""SQLAlchemy 2.0 typed mappings of the register. No business rules here.
+
+The schema is created and changed only by the Alembic migrations in
+``migrations/``; a test checks that upgrading an empty database to head gives
+exactly these mappings.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Any
+
+from sqlalchemy import (
+    JSON,
+    Boolean,
+    Column,
+    DateTime,
+    Float,
+    ForeignKey,
+    Integer,
+    MetaData,
+    String,
+    Table,
+    Text,
+    UniqueConstraint,
+)
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, relationship
+
+NAMING = {
+    "ix": "ix_%(column_0_label)s",
+    "uq": "uq_%(table_name)s_%(column_0_name)s",
+    "ck": "ck_%(table_name)s_%(constraint_name)s",
+    "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+    "pk": "pk_%(table_name)s",
+}
+
+
+def utcnow() -> dt.datetime:
+    return dt.datetime.now(dt.UTC)
+
+
+class Base(DeclarativeBase):
+    metadata = MetaData(naming_convention=NAMING)
+    type_annotation_map = {dict[str, Any]: JSON, list[Any]: JSON}
+
+
+class User(Base):
+    __tablename__ = "user_account"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    email: Mapped[str] = mapped_column(String(254), unique=True)
+    name: Mapped[str] = mapped_column(String(120))
+    password_hash: Mapped[str] = mapped_column(String(255))
+    role: Mapped[str] = mapped_column(String(20))  # viewer, assessor, approver, admin
+    active: Mapped[bool] = mapped_column(Boolean, default=True)
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+
+class Site(Base):
+    __tablename__ = "site"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(120), unique=True)
+    units: Mapped[str] = mapped_column(String(2), default="mm")  # mm or in
+    distance_method: Mapped[str] = mapped_column(String(3), default="ISO")  # ISO or US
+    rating_method: Mapped[str] = mapped_column(String(20), default="iso13849")
+    editions: Mapped[dict[str, Any]] = mapped_column(default=dict)
+    stop_time_allowance_percent: Mapped[float] = mapped_column(Float, default=0.0)
+    base_url: Mapped[str | None] = mapped_column(String(300))
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    areas: Mapped[list[Area]] = relationship(back_populates="site", order_by="Area.name")
+    machines: Mapped[list[Machine]] = relationship(back_populates="site")
+
+
+class Area(Base):
+    __tablename__ = "area"
+    __table_args__ = (UniqueConstraint("site_id", "name"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("site.id"), index=True)
+    name: Mapped[str] = mapped_column(String(120))
+
+    site: Mapped[Site] = relationship(back_populates="areas")
+    machines: Mapped[list[Machine]] = relationship(back_populates="area")
+
+
+class EvidenceFile(Base):
+    """A stored file (photo, PDF, meter export), kept by its SHA-256."""
+
+    __tablename__ = "evidence_file"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    sha256: Mapped[str] = mapped_column(String(64), index=True)
+    filename: Mapped[str] = mapped_column(String(255))
+    content_type: Mapped[str] = mapped_column(String(100))
+    size: Mapped[int] = mapped_column(Integer)
+    uploaded_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+    uploaded_by_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
+
+
+class Machine(Base):
+    __tablename__ = "machine"
+    __table_args__ = (UniqueConstraint("site_id", "asset_tag"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("site.id"), index=True)
+    area_id: Mapped[int | None] = mapped_column(ForeignKey("area.id"), index=True)
+    asset_tag: Mapped[str] = mapped_column(String(40))
+    name: Mapped[str] = mapped_column(String(120))
+    kind: Mapped[str] = mapped_column(String(40))
+    maker: Mapped[str] = mapped_column(String(120), default="")
+    model: Mapped[str] = mapped_column(String(120), default="")
+    serial: Mapped[str] = mapped_column(String(120), default="")
+    year: Mapped[int | None] = mapped_column(Integer)
+    location: Mapped[str] = mapped_column(String(200), default="")
+    notes: Mapped[str] = mapped_column(Text, default="")
+    photo_id: Mapped[int | None] = mapped_column(ForeignKey("evidence_file.id"))
+    active: Mapped[bool] = mapped_column(Boolean, default=True)
+    do_not_operate: Mapped[bool] = mapped_column(Boolean, default=False)
+    do_not_operate_reason: Mapped[str] = mapped_column(Text, default="")
+    version: Mapped[int] = mapped_column(Integer, default=1)
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    site: Mapped[Site] = relationship(back_populates="machines")
+    area: Mapped[Area | None] = relationship(back_populates="machines")
+    photo: Mapped[EvidenceFile | None] = relationship()
+    assessments: Mapped[list[Assessment]] = relationship(
+        back_populates="machine", order_by="Assessment.revision"
+    )
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class Assessment(Base):
+    """One revision of a machine's risk assessment (ISO 12100 process)."""
+
+    __tablename__ = "assessment"
+    __table_args__ = (UniqueConstraint("machine_id", "revision"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    revision: Mapped[int] = mapped_column(Integer, default=1)
+    status: Mapped[str] = mapped_column(String(20), default="draft")
+    scope: Mapped[str] = mapped_column(Text, default="")
+    intended_use: Mapped[str] = mapped_column(Text, default="")
+    foreseeable_misuse: Mapped[str] = mapped_column(Text, default="")
+    space_limits: Mapped[str] = mapped_column(Text, default="")
+    time_limits: Mapped[str] = mapped_column(Text, default="")
+    persons_exposed: Mapped[str] = mapped_column(Text, default="")
+    assessors: Mapped[str] = mapped_column(String(300), default="")
+    approver_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
+    approved_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
+    created_by_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    machine: Mapped[Machine] = relationship(back_populates="assessments")
+    approver: Mapped[User | None] = relationship(foreign_keys=[approver_id])
+    tasks: Mapped[list[Task]] = relationship(back_populates="assessment", order_by="Task.id")
+    hazards: Mapped[list[Hazard]] = relationship(back_populates="assessment", order_by="Hazard.id")
+    measures: Mapped[list[ProtectiveMeasure]] = relationship(
+        back_populates="assessment", order_by="ProtectiveMeasure.id"
+    )
+    safety_functions: Mapped[list[SafetyFunction]] = relationship(
+        back_populates="assessment", order_by="SafetyFunction.id"
+    )
+
+
+class Task(Base):
+    __tablename__ = "task"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    assessment_id: Mapped[int] = mapped_column(ForeignKey("assessment.id"), index=True)
+    phase: Mapped[str] = mapped_column(String(40))
+    description: Mapped[str] = mapped_column(Text)
+    performed_by: Mapped[str] = mapped_column(String(200), default="")
+    frequency: Mapped[str] = mapped_column(String(200), default="")
+    archived: Mapped[bool] = mapped_column(Boolean, default=False)
+
+    assessment: Mapped[Assessment] = relationship(back_populates="tasks")
+    hazards: Mapped[list[Hazard]] = relationship(back_populates="task")
+
+
+hazard_measure = Table(
+    "hazard_measure",
+    Base.metadata,
+    Column("hazard_id", ForeignKey("hazard.id"), primary_key=True),
+    Column("measure_id", ForeignKey("protective_measure.id"), primary_key=True),
+)
+
+hazard_safety_function = Table(
+    "hazard_safety_function",
+    Base.metadata,
+    Column("hazard_id", ForeignKey("hazard.id"), primary_key=True),
+    Column("safety_function_id", ForeignKey("safety_function.id"), primary_key=True),
+)
+
+
+class Hazard(Base):
+    __tablename__ = "hazard"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    assessment_id: Mapped[int] = mapped_column(ForeignKey("assessment.id"), index=True)
+    task_id: Mapped[int | None] = mapped_column(ForeignKey("task.id"), index=True)
+    hazard_group: Mapped[str] = mapped_column(String(40))
+    hazard_type: Mapped[str] = mapped_column(String(80), default="")
+    danger_zone: Mapped[str] = mapped_column(String(200), default="")
+    event: Mapped[str] = mapped_column(Text, default="")  # what could happen
+    harm: Mapped[str] = mapped_column(Text, default="")  # possible harm
+    persons_exposed: Mapped[str] = mapped_column(String(200), default="")
+    photo_id: Mapped[int | None] = mapped_column(ForeignKey("evidence_file.id"))
+    residual_accepted_by_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
+    residual_accepted_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
+    interim_measures: Mapped[str] = mapped_column(Text, default="")
+    archived: Mapped[bool] = mapped_column(Boolean, default=False)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    assessment: Mapped[Assessment] = relationship(back_populates="hazards")
+    task: Mapped[Task | None] = relationship(back_populates="hazards")
+    photo: Mapped[EvidenceFile | None] = relationship()
+    residual_accepted_by: Mapped[User | None] = relationship()
+    ratings: Mapped[list[RiskRating]] = relationship(
+        back_populates="hazard", order_by="RiskRating.id"
+    )
+    measures: Mapped[list[ProtectiveMeasure]] = relationship(
+        secondary=hazard_measure, back_populates="hazards"
+    )
+    safety_functions: Mapped[list[SafetyFunction]] = relationship(
+        secondary=hazard_safety_function, back_populates="hazards"
+    )
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class RiskRating(Base):
+    """A rating of a hazard by one method at one stage, with its derivation stored."""
+
+    __tablename__ = "risk_rating"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    hazard_id: Mapped[int] = mapped_column(ForeignKey("hazard.id"), index=True)
+    stage: Mapped[str] = mapped_column(String(20))  # initial, residual
+    method: Mapped[str] = mapped_column(String(20))  # iso13849, iec62061, ansi_b11
+    parameters: Mapped[dict[str, Any]] = mapped_column()
+    edition: Mapped[str] = mapped_column(String(20))
+    derived_level: Mapped[str] = mapped_column(String(30))
+    derivation: Mapped[dict[str, Any]] = mapped_column()
+    override_level: Mapped[str | None] = mapped_column(String(30))
+    override_source: Mapped[str] = mapped_column(String(200), default="")
+    override_justification: Mapped[str] = mapped_column(Text, default="")
+    override_approved_by: Mapped[str] = mapped_column(String(200), default="")
+    superseded: Mapped[bool] = mapped_column(Boolean, default=False)
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+    created_by_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
+
+    hazard: Mapped[Hazard] = relationship(back_populates="ratings")
+
+    @property
+    def level(self) -> str:
+        """The level in force: the recorded override if any, else the derived one."""
+        return self.override_level or self.derived_level
+
+
+class SafetyFunction(Base):
+    __tablename__ = "safety_function"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    assessment_id: Mapped[int] = mapped_column(ForeignKey("assessment.id"), index=True)
+    name: Mapped[str] = mapped_column(String(200))
+    trigger: Mapped[str] = mapped_column(Text, default="")
+    reaction: Mapped[str] = mapped_column(Text, default="")  # what the machine must do
+    modes: Mapped[str] = mapped_column(String(200), default="")  # run, setting, inch
+    response_time_s: Mapped[float | None] = mapped_column(Float)
+    archived: Mapped[bool] = mapped_column(Boolean, default=False)
+
+    assessment: Mapped[Assessment] = relationship(back_populates="safety_functions")
+    hazards: Mapped[list[Hazard]] = relationship(
+        secondary=hazard_safety_function, back_populates="safety_functions"
+    )
+    measures: Mapped[list[ProtectiveMeasure]] = relationship(back_populates="safety_function")
+
+
+class ProtectiveMeasure(Base):
+    __tablename__ = "protective_measure"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    assessment_id: Mapped[int] = mapped_column(ForeignKey("assessment.id"), index=True)
+    step: Mapped[str] = mapped_column(String(30))  # inherent, safeguarding, information
+    kind: Mapped[str] = mapped_column(String(40))
+    description: Mapped[str] = mapped_column(Text, default="")
+    safety_function_id: Mapped[int | None] = mapped_column(ForeignKey("safety_function.id"))
+    status: Mapped[str] = mapped_column(String(20), default="proposed")
+    archived: Mapped[bool] = mapped_column(Boolean, default=False)
+
+    assessment: Mapped[Assessment] = relationship(back_populates="measures")
+    safety_function: Mapped[SafetyFunction | None] = relationship(back_populates="measures")
+    hazards: Mapped[list[Hazard]] = relationship(
+        secondary=hazard_measure, back_populates="measures"
+    )
+
+
+class AuditEntry(Base):
+    """Who changed what, when, with the values before and after."""
+
+    __tablename__ = "audit_entry"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow, index=True)
+    user_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
+    user_email: Mapped[str] = mapped_column(String(254), default="")
+    action: Mapped[str] = mapped_column(String(20))  # create, update, delete
+    entity: Mapped[str] = mapped_column(String(40))
+    entity_id: Mapped[int | None] = mapped_column(Integer)
+    site_id: Mapped[int | None] = mapped_column(Integer, index=True)
+    machine_id: Mapped[int | None] = mapped_column(Integer, index=True)
+    before: Mapped[dict[str, Any] | None] = mapped_column(JSON)
+    after: Mapped[dict[str, Any] | None] = mapped_column(JSON)

@@ -1,0 +1,61 @@
+"""Shared fixtures: a migrated database per test, on SQLite by default or on the
+PostgreSQL server named by RISKREG_TEST_POSTGRES_URL."""
+
+from __future__ import annotations
+
+import os
+import uuid
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+from sqlalchemy import Engine, text
+from sqlalchemy.orm import Session
+
+from riskreg import migrate
+from riskreg.db import make_engine, session_factory
+from riskreg.services import audit
+
+
+def _postgres_url() -> str | None:
+    return os.environ.get("RISKREG_TEST_POSTGRES_URL") or None
+
+
+@pytest.fixture
+def db_url(tmp_path: Path) -> Iterator[str]:
+    """A fresh, empty database URL (a new schema-less database on PostgreSQL)."""
+    pg = _postgres_url()
+    if pg is None:
+        yield f"sqlite:///{tmp_path / 'test.sqlite'}"
+        return
+    name = "t_" + uuid.uuid4().hex[:12]
+    admin = make_engine(pg, isolation_level="AUTOCOMMIT")
+    with admin.connect() as conn:
+        conn.execute(text(f'CREATE DATABASE "{name}"'))
+    base = pg.rsplit("/", 1)[0]
+    try:
+        yield f"{base}/{name}"
+    finally:
+        with admin.connect() as conn:
+            conn.execute(
+                text("SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE datname = :n"),
+                {"n": name},
+            )
+            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
+        admin.dispose()
+
+
+@pytest.fixture
+def engine(db_url: str) -> Iterator[Engine]:
+    eng = make_engine(db_url)
+    migrate.upgrade(eng)
+    yield eng
+    eng.dispose()
+
+
+@pytest.fixture
+def session(engine: Engine) -> Iterator[Session]:
+    factory = session_factory(engine)
+    audit.install(factory)
+    with factory() as s:
+        yield s
