@@ -21,9 +21,11 @@ def cli() -> None:
 
 
 def _register_commands() -> None:
+    from . import register  # noqa: F401  (registers init, serve, demo, machines)
     from .calc import calc
 
-    cli.add_command(calc)
+    if "calc" not in cli.commands:
+        cli.add_command(calc)
 
 
 def main(argv: list[str] | None = None) -> None:
@@ -38,10 +40,12 @@ def main(argv: list[str] | None = None) -> None:
         hint = ""
         if exc.ctx is not None:
             hint = f" (see '{exc.ctx.command_path} --help')"
-        click.echo(f"riskreg: error: {exc.format_message()}{hint}", err=True)
+        message = " ".join(exc.format_message().split())
+        click.echo(f"riskreg: error: {message}{hint}", err=True)
         sys.exit(2)
     except click.ClickException as exc:
-        click.echo(f"riskreg: error: {exc.format_message()}", err=True)
+        message = " ".join(exc.format_message().split())
+        click.echo(f"riskreg: error: {message}", err=True)
         sys.exit(exc.exit_code)
     except InputError as exc:
         click.echo(f"riskreg: error: {exc}", err=True)

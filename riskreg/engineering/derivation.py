@@ -202,9 +202,15 @@ class DerivationBuilder:
         )
 
 
-def require_finite(name: str, value: float, *, minimum: float | None = None,
-                   maximum: float | None = None, unit: str = "",
-                   exclusive_min: bool = False) -> float:
+def require_finite(
+    name: str,
+    value: float,
+    *,
+    minimum: float | None = None,
+    maximum: float | None = None,
+    unit: str = "",
+    exclusive_min: bool = False,
+) -> float:
     """Check a number's range and say what is allowed when it is outside."""
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise InputError(name, f"must be a number, got {value!r}")

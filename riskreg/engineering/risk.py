@@ -149,7 +149,9 @@ def required_sil(
         sil, outcome = None, "none"
     d.step(f"Se {se}, CI band {band} → {cell}")
     if fr == 1:
-        d.warn("Fr = 1 exists only under the 2021 edition's reduction for exposures of 10 min or less.")
+        d.warn(
+            "Fr = 1 exists only under the 2021 edition's reduction for exposures of 10 min or less."
+        )
     return SilResult(
         class_sum=ci,
         sil=sil,

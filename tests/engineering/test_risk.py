@@ -45,7 +45,11 @@ def test_f1_carries_the_exposure_condition() -> None:
 
 @pytest.mark.parametrize(
     ("args", "field"),
-    [(("S3", "F1", "P1"), "severity"), (("S1", "F0", "P1"), "frequency"), (("S1", "F1", "p1"), "avoidance")],
+    [
+        (("S3", "F1", "P1"), "severity"),
+        (("S1", "F0", "P1"), "frequency"),
+        (("S1", "F1", "p1"), "avoidance"),
+    ],
 )
 def test_risk_graph_refuses_unknown_parameters(args: tuple[str, str, str], field: str) -> None:
     with pytest.raises(InputError) as exc:
@@ -62,8 +66,10 @@ def test_unknown_edition_is_refused() -> None:
 LEVEL = {"S1": 0, "S2": 1, "F1": 0, "F2": 1, "P1": 0, "P2": 1}
 
 
-@given(st.sampled_from(list(itertools.product(["S1", "S2"], ["F1", "F2"], ["P1", "P2"]))),
-       st.sampled_from(["S", "F", "P"]))
+@given(
+    st.sampled_from(list(itertools.product(["S1", "S2"], ["F1", "F2"], ["P1", "P2"]))),
+    st.sampled_from(["S", "F", "P"]),
+)
 def test_plr_never_falls_when_a_parameter_rises(sfp: tuple[str, str, str], which: str) -> None:
     """Monotonicity of the risk graph: raising S, F or P never lowers PLr."""
     s, f, p = sfp
@@ -76,11 +82,11 @@ def test_plr_never_falls_when_a_parameter_rises(sfp: tuple[str, str, str], which
 @pytest.mark.parametrize(
     ("se", "fr", "pr", "av", "ci", "sil", "outcome"),
     [
-        (4, 5, 5, 5, 15, 3, "sil"),      # Se 4, CI 14-15 → SIL 3
-        (4, 5, 4, 3, 12, 3, "sil"),      # Se 4, CI 11-13 → SIL 3
-        (4, 2, 1, 1, 4, 2, "sil"),       # Se 4, CI 3-4 → SIL 2
-        (3, 5, 4, 3, 12, 2, "sil"),      # Se 3, CI 11-13 → SIL 2
-        (3, 3, 3, 3, 9, 1, "sil"),       # Se 3, CI 8-10 → SIL 1
+        (4, 5, 5, 5, 15, 3, "sil"),  # Se 4, CI 14-15 → SIL 3
+        (4, 5, 4, 3, 12, 3, "sil"),  # Se 4, CI 11-13 → SIL 3
+        (4, 2, 1, 1, 4, 2, "sil"),  # Se 4, CI 3-4 → SIL 2
+        (3, 5, 4, 3, 12, 2, "sil"),  # Se 3, CI 11-13 → SIL 2
+        (3, 3, 3, 3, 9, 1, "sil"),  # Se 3, CI 8-10 → SIL 1
         (3, 3, 2, 1, 6, None, "other measures"),
         (3, 2, 1, 1, 4, None, "none"),
         (2, 5, 5, 5, 15, 2, "sil"),
@@ -91,7 +97,9 @@ def test_plr_never_falls_when_a_parameter_rises(sfp: tuple[str, str, str], which
         (1, 4, 3, 3, 10, None, "none"),
     ],
 )
-def test_sil_matrix(se: int, fr: int, pr: int, av: int, ci: int, sil: int | None, outcome: str) -> None:
+def test_sil_matrix(
+    se: int, fr: int, pr: int, av: int, ci: int, sil: int | None, outcome: str
+) -> None:
     r = risk.required_sil(se, fr, pr, av)
     assert (r.class_sum, r.sil, r.outcome) == (ci, sil, outcome)
 

@@ -17,7 +17,9 @@ class LengthType(click.ParamType):
 
     name = "LENGTH"
 
-    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> float:
+    def convert(
+        self, value: Any, param: click.Parameter | None, ctx: click.Context | None
+    ) -> float:
         if isinstance(value, float):
             return value
         try:
@@ -31,7 +33,9 @@ class TimeType(click.ParamType):
 
     name = "TIME"
 
-    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> float:
+    def convert(
+        self, value: Any, param: click.Parameter | None, ctx: click.Context | None
+    ) -> float:
         if isinstance(value, float):
             return value
         try:
@@ -109,4 +113,9 @@ def calc() -> None:
     """Engineering calculations with their derivation and sources."""
 
 
-from . import risk as _risk  # noqa: E402,F401  (registers commands)
+# Each module registers its commands on `calc`.
+from . import distance as _distance  # noqa: E402,F401
+from . import pl as _pl  # noqa: E402,F401
+from . import risk as _risk  # noqa: E402,F401
+from . import two_hand as _two_hand  # noqa: E402,F401
+from . import us as _us  # noqa: E402,F401

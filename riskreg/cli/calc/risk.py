@@ -30,8 +30,14 @@ def plr(severity: str, frequency: str, avoidance: str, edition: str | None, as_j
 @click.option("--avoidance", required=True, type=click.Choice(["1", "3", "5"]), help="Av 1, 3 or 5")
 @edition_option
 @json_option
-def sil(severity: int, frequency: int, probability: int, avoidance: str,
-        edition: str | None, as_json: bool) -> None:
+def sil(
+    severity: int,
+    frequency: int,
+    probability: int,
+    avoidance: str,
+    edition: str | None,
+    as_json: bool,
+) -> None:
     """Required SIL from the IEC 62061 matrix."""
     r = run(risk.required_sil, severity, frequency, probability, int(avoidance), edition)
     shown = f"SIL {r.sil}" if r.sil else r.outcome

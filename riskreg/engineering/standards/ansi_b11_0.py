@@ -19,7 +19,9 @@ _MATRIX = {
 }
 
 _ROWS = tuple(
-    Constant(f"matrix.{prob}.{sev}", level, "", SOURCE, DEFAULT_EDITION, "Annex, example risk matrix")
+    Constant(
+        f"matrix.{prob}.{sev}", level, "", SOURCE, DEFAULT_EDITION, "Annex, example risk matrix"
+    )
     for prob, levels in _MATRIX.items()
     for sev, level in zip(_SEVERITIES, levels, strict=True)
 )

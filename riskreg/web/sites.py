@@ -1,0 +1,43 @@
+"""Site overview: machines by area with their open hazards and levels."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from flask import Blueprint, redirect, render_template, request, url_for
+from sqlalchemy import select
+
+from riskreg.model import Site
+from riskreg.services import register
+from riskreg.services.errors import NotFound
+
+from . import db
+
+bp = Blueprint("sites", __name__)
+
+
+def all_sites() -> list[Site]:
+    return list(db().scalars(select(Site).order_by(Site.name)))
+
+
+@bp.route("/")
+def overview() -> Any:
+    sites = all_sites()
+    if not sites:
+        return render_template("empty.html", title="No site yet")
+    return redirect(url_for("sites.site", site_id=sites[0].id))
+
+
+@bp.route("/sites/<int:site_id>")
+def site(site_id: int) -> Any:
+    s = db().get(Site, site_id)
+    if s is None:
+        raise NotFound(f"No site number {site_id}.")
+    q = request.args.get("q", "")[:100]
+    rows = register.site_overview(db(), s, q)
+    areas: dict[str, list[register.MachineRow]] = {}
+    for r in rows:
+        areas.setdefault(r.area_name or "No area", []).append(r)
+    return render_template(
+        "overview.html", site=s, sites=all_sites(), areas=areas, q=q, total=len(rows), title=s.name
+    )

@@ -1,0 +1,1 @@
+"""The invented demo plant (every company, person, machine and number is made up)."""

@@ -1,0 +1,661 @@
+"""Build the demo plant: Ostrander Vale Pressworks, an invented metal-forming plant.
+
+Every name, person, machine and number here is invented for the demo.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from sqlalchemy.orm import Session
+
+from riskreg.model import Machine
+from riskreg.services import register, users
+from riskreg.services.audit import set_actor
+
+DEMO_PASSWORD = "demo-password-2026"
+SITE = "Ostrander Vale Pressworks"
+
+PEOPLE = [
+    ("admin@ostrander.invalid", "Rasmus Tollefsen-Aird", "admin"),
+    ("approver@ostrander.invalid", "Ines Halvorsen-Reyes", "approver"),
+    ("assessor@ostrander.invalid", "Tobiah Marsh-Quill", "assessor"),
+    ("viewer@ostrander.invalid", "Dagny Okafor-Lind", "viewer"),
+]
+
+AREAS = ("Press shop", "Fabrication", "Welding and assembly")
+
+# asset tag, name, kind, area, maker, model, serial, year, location
+MACHINES = [
+    (
+        "PR-101",
+        "250 t straight-side press",
+        "mechanical_press",
+        "Press shop",
+        "Hollin Forge Works",
+        "SS-250",
+        "HF-88213",
+        1998,
+        "Bay 1, line A",
+    ),
+    (
+        "PR-102",
+        "160 t gap press (two operators)",
+        "mechanical_press",
+        "Press shop",
+        "Hollin Forge Works",
+        "GP-160",
+        "HF-90544",
+        1994,
+        "Bay 1, line B",
+    ),
+    (
+        "PR-103",
+        "110 t OBI press",
+        "mechanical_press",
+        "Press shop",
+        "Karsk Machinery",
+        "OB-110",
+        "K-11071",
+        2009,
+        "Bay 2",
+    ),
+    (
+        "PR-104",
+        "60 t full-revolution press",
+        "mechanical_press",
+        "Press shop",
+        "Karsk Machinery",
+        "FR-60",
+        "K-06002",
+        1981,
+        "Bay 2, corner",
+    ),
+    (
+        "HP-201",
+        "400 t hydraulic deep-draw press",
+        "hydraulic_press",
+        "Press shop",
+        "Velmar Hydraulik",
+        "DD-400",
+        "VH-4417",
+        2015,
+        "Bay 3",
+    ),
+    (
+        "PB-301",
+        "135 t press brake",
+        "press_brake",
+        "Fabrication",
+        "Brenvik Tools",
+        "PB-135/3100",
+        "BT-31877",
+        2012,
+        "Fab hall north",
+    ),
+    (
+        "PB-302",
+        "80 t press brake",
+        "press_brake",
+        "Fabrication",
+        "Brenvik Tools",
+        "PB-80/2500",
+        "BT-22190",
+        2004,
+        "Fab hall north",
+    ),
+    (
+        "SH-401",
+        "3 m guillotine shear",
+        "shear",
+        "Fabrication",
+        "Tessaly Shears",
+        "GS-3006",
+        "TS-3006-17",
+        2007,
+        "Fab hall south",
+    ),
+    (
+        "SH-402",
+        "1.5 m foot shear",
+        "shear",
+        "Fabrication",
+        "Tessaly Shears",
+        "FS-1516",
+        "TS-1516-02",
+        1989,
+        "Maintenance shop",
+    ),
+    (
+        "RC-501",
+        "Robot spot-welding cell",
+        "robot_cell",
+        "Welding and assembly",
+        "Orrin Automation",
+        "SW-2",
+        "OA-5501",
+        2018,
+        "Weld line 1",
+    ),
+    (
+        "RC-502",
+        "Robot palletising cell",
+        "robot_cell",
+        "Welding and assembly",
+        "Orrin Automation",
+        "PL-1",
+        "OA-5502",
+        2021,
+        "Dispatch",
+    ),
+    (
+        "CV-601",
+        "Part-transfer belt conveyor",
+        "conveyor",
+        "Welding and assembly",
+        "Linnet Conveying",
+        "BC-600",
+        "LC-0601",
+        2016,
+        "Weld line 1 to paint",
+    ),
+    (
+        "CV-602",
+        "Scrap chute conveyor",
+        "conveyor",
+        "Press shop",
+        "Linnet Conveying",
+        "SC-400",
+        "LC-0602",
+        2003,
+        "Under PR-101 and PR-102",
+    ),
+]
+
+LIMITS: dict[str, dict[str, str]] = {
+    "mechanical_press": {
+        "scope": "Press, its die sets in use, feeding and part removal, die change.",
+        "intended_use": "Blanking and forming of steel sheet up to 3 mm, hand-fed and "
+        "single-stroke.",
+        "foreseeable_misuse": "Reaching into the die to re-position a blank; tying down a "
+        "button to run continuously; running with the guard removed after die change.",
+        "space_limits": "Press footprint plus 1.5 m working area at the front; rear scrap chute.",
+        "time_limits": "Clutch and brake linings replaced per maker; die sets rotated weekly.",
+        "persons_exposed": "Press operators, die setters, maintenance fitters, passers-by in "
+        "the aisle.",
+    },
+    "press_brake": {
+        "scope": "Press brake with its tooling, front and rear of the machine.",
+        "intended_use": "Bending sheet up to 6 mm, small parts held by hand.",
+        "foreseeable_misuse": "Holding the part close to the bend line; muting the protective "
+        "device for narrow boxes.",
+        "persons_exposed": "Operators (one or two), setters, maintenance.",
+    },
+}
+
+# tag → list of (task key, hazard dict, initial rating dict, residual rating dict or None)
+R = dict[str, Any]
+
+
+def iso(s: str, f: str, p: str, stage: str = "initial", **extra: Any) -> R:
+    return {
+        "method": "iso13849",
+        "stage": stage,
+        "severity": s,
+        "frequency": f,
+        "avoidance": p,
+        **extra,
+    }
+
+
+TASKS: dict[str, list[tuple[str, str, str, str]]] = {
+    # key, phase, description, who / how often
+    "mechanical_press": [
+        ("feed", "operation", "Hand-feed blanks and remove parts", "press operator|every stroke"),
+        ("die", "setting", "Die change", "die setter|weekly"),
+        ("brake", "maintenance", "Clutch and brake adjustment", "maintenance fitter|yearly"),
+        ("clean", "cleaning", "Clear slugs from the die and bolster", "press operator|every shift"),
+    ],
+    "hydraulic_press": [
+        ("load", "operation", "Load blanks and unload drawn parts", "press operator|every cycle"),
+        ("tool", "setting", "Tool change", "die setter|monthly"),
+        ("hyd", "maintenance", "Hose and valve replacement", "maintenance fitter|as needed"),
+    ],
+    "press_brake": [
+        ("bend", "operation", "Hold and bend sheet", "operator|every bend"),
+        ("tool", "setting", "Tool change and back-gauge setting", "setter|daily"),
+    ],
+    "shear": [
+        ("feed", "operation", "Feed sheet to the blade", "operator|every cut"),
+        ("rear", "operation", "Collect cut parts at the rear", "operator|every cut"),
+        ("blade", "maintenance", "Blade change and gap setting", "maintenance fitter|yearly"),
+    ],
+    "robot_cell": [
+        ("load", "operation", "Load parts at the turntable", "operator|every cycle"),
+        ("jam", "fault_finding", "Clear a jam inside the cell", "operator|weekly"),
+        ("teach", "setting", "Teach and touch up programs", "robot technician|monthly"),
+    ],
+    "conveyor": [
+        ("clear", "operation", "Clear parts stuck at the transfer", "operator|daily"),
+        ("clean", "cleaning", "Clean under the belt", "cleaner|weekly"),
+    ],
+}
+
+HAZARDS: dict[str, list[tuple[str, dict[str, str], R, R | None]]] = {
+    "mechanical_press": [
+        (
+            "feed",
+            {
+                "hazard_type": "crushing",
+                "danger_zone": "Between upper and lower die",
+                "event": "Hand in the die space when the slide descends",
+                "harm": "Amputation of fingers or hand",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F2", "P2"),
+            iso("S2", "F2", "P2", "residual"),
+        ),
+        (
+            "feed",
+            {
+                "hazard_type": "ejection of parts",
+                "danger_zone": "Die area",
+                "event": "Slug or part thrown from the die",
+                "harm": "Eye or face injury",
+                "persons_exposed": "operator, passers-by",
+            },
+            iso("S1", "F2", "P1"),
+            None,
+        ),
+        (
+            "die",
+            {
+                "hazard_type": "crushing",
+                "danger_zone": "Die space and bolster",
+                "event": "Slide drifts or is stroked while hands are between the dies",
+                "harm": "Crushing of hands or arms",
+                "persons_exposed": "die setter",
+            },
+            iso("S2", "F1", "P2"),
+            iso("S2", "F1", "P1", "residual"),
+        ),
+        (
+            "brake",
+            {
+                "hazard_type": "entanglement",
+                "danger_zone": "Flywheel and belts",
+                "event": "Sleeve caught by the coasting flywheel",
+                "harm": "Severe arm injury",
+                "persons_exposed": "maintenance fitter",
+            },
+            iso("S2", "F1", "P1"),
+            None,
+        ),
+        (
+            "clean",
+            {
+                "hazard_type": "cutting or severing",
+                "danger_zone": "Die edges",
+                "event": "Hand cut on the die's cutting edge while clearing slugs",
+                "harm": "Deep cut to the hand",
+                "persons_exposed": "operator",
+            },
+            iso("S1", "F2", "P1"),
+            None,
+        ),
+    ],
+    "hydraulic_press": [
+        (
+            "load",
+            {
+                "hazard_type": "crushing",
+                "danger_zone": "Between ram and bed",
+                "event": "Ram closes with a hand in the tool area",
+                "harm": "Crushing or amputation of hands",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F2", "P2"),
+            iso("S2", "F2", "P1", "residual"),
+        ),
+        (
+            "tool",
+            {
+                "hazard_type": "crushing",
+                "danger_zone": "Tool area",
+                "event": "Ram descends under gravity when the circuit is opened",
+                "harm": "Crushing",
+                "persons_exposed": "die setter",
+            },
+            iso("S2", "F1", "P2"),
+            None,
+        ),
+        (
+            "hyd",
+            {
+                "hazard_type": "high-pressure fluid injection or ejection",
+                "danger_zone": "Hydraulic circuit",
+                "event": "Pin-hole leak at a hose fitting",
+                "harm": "Oil injection injury",
+                "persons_exposed": "maintenance fitter",
+            },
+            iso("S2", "F1", "P1"),
+            None,
+        ),
+    ],
+    "press_brake": [
+        (
+            "bend",
+            {
+                "hazard_type": "crushing",
+                "danger_zone": "Between punch and die",
+                "event": "Fingers trapped at the bend line",
+                "harm": "Amputation of fingers",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F2", "P2"),
+            iso("S2", "F2", "P1", "residual"),
+        ),
+        (
+            "bend",
+            {
+                "hazard_type": "impact",
+                "danger_zone": "In front of the die",
+                "event": "Sheet whips up during the bend",
+                "harm": "Face or chest injury",
+                "persons_exposed": "operator",
+            },
+            iso("S1", "F2", "P1"),
+            None,
+        ),
+        (
+            "tool",
+            {
+                "hazard_type": "cutting or severing",
+                "danger_zone": "Tool clamping",
+                "event": "Hand cut on sharp punch edges",
+                "harm": "Cuts",
+                "persons_exposed": "setter",
+            },
+            iso("S1", "F1", "P1"),
+            None,
+        ),
+    ],
+    "shear": [
+        (
+            "feed",
+            {
+                "hazard_type": "cutting or severing",
+                "danger_zone": "Blade line",
+                "event": "Hand reaches the blade through the feed opening",
+                "harm": "Amputation of fingers",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F2", "P2"),
+            iso("S2", "F2", "P1", "residual"),
+        ),
+        (
+            "feed",
+            {
+                "hazard_type": "crushing",
+                "danger_zone": "Hold-down feet",
+                "event": "Fingers under the hold-downs",
+                "harm": "Crushed fingers",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F2", "P1"),
+            None,
+        ),
+        (
+            "rear",
+            {
+                "hazard_type": "cutting or severing",
+                "danger_zone": "Rear of the shear",
+                "event": "Reaching to the blade from the rear to retrieve a part",
+                "harm": "Amputation",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F1", "P2"),
+            None,
+        ),
+        (
+            "blade",
+            {
+                "hazard_type": "cutting or severing",
+                "danger_zone": "Blade",
+                "event": "Blade handled during change",
+                "harm": "Deep cuts",
+                "persons_exposed": "maintenance fitter",
+            },
+            iso("S1", "F1", "P2"),
+            None,
+        ),
+    ],
+    "robot_cell": [
+        (
+            "load",
+            {
+                "hazard_type": "impact",
+                "danger_zone": "Robot working envelope",
+                "event": "Robot moves while the operator reaches past the turntable",
+                "harm": "Impact or crushing injury",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F2", "P2"),
+            iso("S2", "F2", "P1", "residual"),
+        ),
+        (
+            "jam",
+            {
+                "hazard_type": "crushing",
+                "danger_zone": "Between robot and fixture",
+                "event": "Unexpected start while clearing a jam inside the cell",
+                "harm": "Crushing",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F1", "P2"),
+            None,
+        ),
+        (
+            "teach",
+            {
+                "hazard_type": "impact",
+                "danger_zone": "Robot envelope",
+                "event": "Robot moves faster than expected in teach mode",
+                "harm": "Impact injury",
+                "persons_exposed": "robot technician",
+            },
+            iso("S2", "F1", "P1"),
+            None,
+        ),
+    ],
+    "conveyor": [
+        (
+            "clear",
+            {
+                "hazard_type": "drawing-in or trapping",
+                "danger_zone": "In-running nip at the return roller",
+                "event": "Hand drawn into the nip while freeing a part",
+                "harm": "Arm injury",
+                "persons_exposed": "operator",
+            },
+            iso("S2", "F1", "P2"),
+            None,
+        ),
+        (
+            "clean",
+            {
+                "hazard_type": "entanglement",
+                "danger_zone": "Drive shaft and chain",
+                "event": "Clothing caught by the drive",
+                "harm": "Severe injury",
+                "persons_exposed": "cleaner",
+            },
+            iso("S2", "F1", "P1"),
+            None,
+        ),
+    ],
+}
+
+# tag → list of (kind, status, description, hazard index list)
+MEASURES: dict[str, list[tuple[str, str, str, list[int]]]] = {
+    "PR-101": [
+        ("light_curtain", "installed", "14 mm light curtain across the die opening", [0]),
+        ("fixed_guard", "installed", "Fixed side guards with feed opening", [0, 1]),
+        ("procedure", "installed", "Die-change procedure with safety blocks", [2]),
+    ],
+    "PR-102": [
+        (
+            "two_hand_control",
+            "installed",
+            "Each of the two operators has a push-button pair wired in series",
+            [0],
+        ),
+        (
+            "two_hand_control",
+            "proposed",
+            "Two complete two-hand control stations with synchronous actuation",
+            [0],
+        ),
+    ],
+    "PR-103": [
+        (
+            "two_hand_control",
+            "installed",
+            "Two-hand control station with anti-tie-down and anti-repeat",
+            [0],
+        ),
+        ("ppe", "installed", "Safety glasses in the press shop", [1]),
+    ],
+    "PR-104": [
+        ("two_hand_control", "installed", "Two-hand trip, full-revolution clutch", [0]),
+        ("fixed_guard", "proposed", "Barrier guard replacing the trip for small parts", [0]),
+    ],
+    "HP-201": [
+        ("interlocking_guard", "installed", "Front sliding door, coded interlock", [0]),
+        ("procedure", "installed", "Block the ram before opening the circuit", [1]),
+    ],
+    "PB-301": [("light_curtain", "installed", "Light curtain at the front of the tools", [0])],
+    "PB-302": [
+        ("hold_to_run", "interim", "Slow closing speed under hold-to-run foot pedal", [0]),
+        ("light_curtain", "proposed", "Light curtain at the front of the tools", [0]),
+    ],
+    "SH-401": [
+        ("fixed_guard", "installed", "Finger guard at the hold-downs", [0, 1]),
+        ("interlocking_guard", "installed", "Rear guard interlocked with the stroke", [2]),
+    ],
+    "SH-402": [("fixed_guard", "proposed", "Finger guard across the blade line", [0])],
+    "RC-501": [
+        ("interlocking_guard", "installed", "Cell door with guard locking", [1]),
+        ("light_curtain", "installed", "Light curtain at the turntable", [0]),
+        ("enabling_device", "installed", "Three-position enabling device on the pendant", [2]),
+    ],
+    "RC-502": [("interlocking_guard", "installed", "Perimeter fence door interlock", [0, 1])],
+    "CV-601": [("fixed_guard", "installed", "Nip guard at the return roller", [0])],
+    "CV-602": [
+        ("fixed_guard", "proposed", "Enclose the drive chain", [1]),
+        ("training", "installed", "Lock-out before cleaning", [1]),
+    ],
+}
+
+
+def build(session: Session) -> list[tuple[str, str]]:
+    """Fill an empty, migrated database with the demo plant. Returns the logins."""
+    people = {}
+    for email, name, role in PEOPLE:
+        people[role] = users.create_user(session, email, name, role, DEMO_PASSWORD, commit=False)
+    session.commit()
+    set_actor(session, people["assessor"])
+    site = register.create_site(
+        session,
+        SITE,
+        units="mm",
+        distance_method="ISO",
+        stop_time_allowance_percent=10.0,
+        base_url="http://127.0.0.1:8080",
+    )
+    areas = {name: register.create_area(session, site, name) for name in AREAS}
+    machines: dict[str, Machine] = {}
+    for tag, name, kind, area, maker, model, serial, year, location in MACHINES:
+        m = register.create_machine(
+            session,
+            site,
+            {
+                "asset_tag": tag,
+                "name": name,
+                "kind": kind,
+                "area_id": areas[area].id,
+                "maker": maker,
+                "model": model,
+                "serial": serial,
+                "year": year,
+                "location": location,
+            },
+            user=people["assessor"],
+            commit=False,
+        )
+        machines[tag] = m
+    session.commit()
+    for tag, m in machines.items():
+        a = register.current_assessment(m)
+        register.update_assessment(
+            session, a, dict(LIMITS.get(m.kind, {}), assessors=people["assessor"].name)
+        )
+        tasks = {}
+        for key, phase, desc, who_often in TASKS[m.kind]:
+            who, often = who_often.split("|")
+            tasks[key] = register.add_task(
+                session,
+                a,
+                {"phase": phase, "description": desc, "performed_by": who, "frequency": often},
+                commit=False,
+            )
+        session.flush()
+        hazards = []
+        for key, hz, initial, residual in HAZARDS[m.kind]:
+            h = register.add_hazard(
+                session,
+                a,
+                dict(hz, hazard_group="mechanical", task_id=tasks[key].id),
+                initial,
+                user=people["assessor"],
+                commit=False,
+            )
+            session.flush()
+            if residual is not None:
+                register.rate_hazard(session, h, residual, user=people["assessor"], commit=False)
+            hazards.append(h)
+        session.flush()
+        for kind, status, desc, idx in MEASURES.get(tag, []):
+            register.add_measure(
+                session,
+                a,
+                {
+                    "kind": kind,
+                    "status": status,
+                    "description": desc,
+                    "hazard_ids": [hazards[i].id for i in idx],
+                },
+                commit=False,
+            )
+        session.commit()
+    # A noise hazard on the press shop's loudest press, rated by IEC 62061 for contrast
+    pr101 = register.current_assessment(machines["PR-101"])
+    register.add_hazard(
+        session,
+        pr101,
+        {
+            "hazard_group": "noise",
+            "hazard_type": "impulsive noise",
+            "danger_zone": "Operator position",
+            "event": "Repeated impact noise at every stroke",
+            "harm": "Noise-induced hearing loss",
+            "persons_exposed": "operator",
+        },
+    )
+    register.set_do_not_operate(
+        session,
+        machines["SH-402"],
+        True,
+        "No guard across the blade line; use SH-401 until the finger guard is fitted.",
+    )
+    return [(email, role) for email, _name, role in PEOPLE]
