@@ -279,6 +279,9 @@ class SafetyFunction(Base):
         secondary=hazard_safety_function, back_populates="safety_functions"
     )
     measures: Mapped[list[ProtectiveMeasure]] = relationship(back_populates="safety_function")
+    parts: Mapped[list[SafetyFunctionPart]] = relationship(
+        back_populates="safety_function", order_by="SafetyFunctionPart.id"
+    )
 
 
 class ProtectiveMeasure(Base):
@@ -316,3 +319,215 @@ class AuditEntry(Base):
     machine_id: Mapped[int | None] = mapped_column(Integer, index=True)
     before: Mapped[dict[str, Any] | None] = mapped_column(JSON)
     after: Mapped[dict[str, Any] | None] = mapped_column(JSON)
+
+
+# --- safeguards and their engineering (machine-level records that outlive revisions) ---
+
+
+class Component(Base):
+    """A part from a maker's data sheet, reused across machines."""
+
+    __tablename__ = "component"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    maker: Mapped[str] = mapped_column(String(120))
+    model: Mapped[str] = mapped_column(String(120))
+    kind: Mapped[str] = mapped_column(String(60))  # e.g. light curtain, safety relay, valve
+    pl: Mapped[str | None] = mapped_column(String(1))
+    category: Mapped[str | None] = mapped_column(String(1))
+    pfhd: Mapped[float | None] = mapped_column(Float)
+    b10d: Mapped[float | None] = mapped_column(Float)
+    mttfd_years: Mapped[float | None] = mapped_column(Float)
+    response_time_s: Mapped[float | None] = mapped_column(Float)
+    espe_type: Mapped[int | None] = mapped_column(Integer)
+    document: Mapped[str] = mapped_column(String(300), default="")  # data sheet it came from
+    notes: Mapped[str] = mapped_column(Text, default="")
+
+
+class Safeguard(Base):
+    """A physical safeguard on a machine: a two-hand control, a light curtain, a guard…
+
+    ``parameters`` holds the kind's own characteristics (see services.safeguards).
+    """
+
+    __tablename__ = "safeguard"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    kind: Mapped[str] = mapped_column(String(40))
+    label: Mapped[str] = mapped_column(String(200))
+    component_id: Mapped[int | None] = mapped_column(ForeignKey("component.id"))
+    measure_id: Mapped[int | None] = mapped_column(ForeignKey("protective_measure.id"))
+    response_time_s: Mapped[float] = mapped_column(Float, default=0.0)
+    installed_distance_mm: Mapped[float | None] = mapped_column(Float)
+    parameters: Mapped[dict[str, Any]] = mapped_column(default=dict)
+    status: Mapped[str] = mapped_column(String(20), default="installed")
+    trusted: Mapped[bool] = mapped_column(Boolean, default=True)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    machine: Mapped[Machine] = relationship()
+    component: Mapped[Component | None] = relationship()
+    measure: Mapped[ProtectiveMeasure | None] = relationship()
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class PressProfile(Base):
+    """Press specifics: clutch, engaging points, brake monitor, control reliability."""
+
+    __tablename__ = "press_profile"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), unique=True)
+    clutch: Mapped[str] = mapped_column(String(10), default="part")  # part or full
+    engaging_points: Mapped[int | None] = mapped_column(Integer)
+    revolution_time_s: Mapped[float | None] = mapped_column(Float)
+    brake_monitor: Mapped[bool] = mapped_column(Boolean, default=False)
+    control_reliable: Mapped[bool] = mapped_column(Boolean, default=False)
+    anti_repeat: Mapped[bool | None] = mapped_column(Boolean)
+    single_stroke: Mapped[bool | None] = mapped_column(Boolean)
+
+    machine: Mapped[Machine] = relationship()
+    monitor_settings: Mapped[list[BrakeMonitorSetting]] = relationship(
+        back_populates="profile", order_by="BrakeMonitorSetting.set_on"
+    )
+
+
+class BrakeMonitorSetting(Base):
+    __tablename__ = "brake_monitor_setting"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    profile_id: Mapped[int] = mapped_column(ForeignKey("press_profile.id"), index=True)
+    set_on: Mapped[dt.date] = mapped_column()
+    setpoint_s: Mapped[float] = mapped_column(Float)
+    set_by: Mapped[str] = mapped_column(String(200), default="")
+    note: Mapped[str] = mapped_column(Text, default="")
+
+    profile: Mapped[PressProfile] = relationship(back_populates="monitor_settings")
+
+
+class StoppingTimeMeasurement(Base):
+    __tablename__ = "stopping_time_measurement"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    measured_on: Mapped[dt.date] = mapped_column()
+    instrument: Mapped[str] = mapped_column(String(200), default="")
+    position: Mapped[str] = mapped_column(String(200), default="")
+    measured_by: Mapped[str] = mapped_column(String(200), default="")
+    trials_s: Mapped[list[Any]] = mapped_column()
+    allowance_percent: Mapped[float] = mapped_column(Float, default=0.0)
+    brake_monitor_limit_s: Mapped[float | None] = mapped_column(Float)
+    t_used_s: Mapped[float] = mapped_column(Float)
+    derivation: Mapped[dict[str, Any]] = mapped_column()
+    notes: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    machine: Mapped[Machine] = relationship()
+    checks: Mapped[list[DistanceCheck]] = relationship(back_populates="measurement")
+
+
+class DistanceCheck(Base):
+    """Required against installed distance of one safeguard for one measurement."""
+
+    __tablename__ = "distance_check"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    measurement_id: Mapped[int] = mapped_column(
+        ForeignKey("stopping_time_measurement.id"), index=True
+    )
+    safeguard_id: Mapped[int] = mapped_column(ForeignKey("safeguard.id"), index=True)
+    method: Mapped[str] = mapped_column(String(3))  # ISO or US
+    required_mm: Mapped[float | None] = mapped_column(Float)
+    installed_mm: Mapped[float | None] = mapped_column(Float)
+    passed: Mapped[bool | None] = mapped_column(Boolean)
+    message: Mapped[str] = mapped_column(Text, default="")
+    derivation: Mapped[dict[str, Any]] = mapped_column()
+
+    measurement: Mapped[StoppingTimeMeasurement] = relationship(back_populates="checks")
+    safeguard: Mapped[Safeguard] = relationship()
+
+
+class CorrectiveAction(Base):
+    __tablename__ = "corrective_action"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    safeguard_id: Mapped[int | None] = mapped_column(ForeignKey("safeguard.id"))
+    source: Mapped[str] = mapped_column(String(40))  # distance, pl, verification, overdue, manual
+    title: Mapped[str] = mapped_column(String(300))
+    description: Mapped[str] = mapped_column(Text, default="")
+    owner: Mapped[str] = mapped_column(String(200), default="")
+    due_on: Mapped[dt.date | None] = mapped_column()
+    status: Mapped[str] = mapped_column(String(20), default="open")  # open, closed
+    closing_note: Mapped[str] = mapped_column(Text, default="")
+    closed_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    machine: Mapped[Machine] = relationship()
+    safeguard: Mapped[Safeguard | None] = relationship()
+
+
+class SafetyFunctionPart(Base):
+    """Input, logic or output of a safety function, with its PL data."""
+
+    __tablename__ = "safety_function_part"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    safety_function_id: Mapped[int] = mapped_column(ForeignKey("safety_function.id"), index=True)
+    role: Mapped[str] = mapped_column(String(10))  # input, logic, output
+    name: Mapped[str] = mapped_column(String(200))
+    component_id: Mapped[int | None] = mapped_column(ForeignKey("component.id"))
+    # Either a certified part's data sheet (pl / pfhd) or the Category data
+    given_pl: Mapped[str | None] = mapped_column(String(1))
+    given_pfhd: Mapped[float | None] = mapped_column(Float)
+    category: Mapped[str | None] = mapped_column(String(1))
+    mttfd_years: Mapped[list[Any] | None] = mapped_column(JSON)
+    b10d: Mapped[float | None] = mapped_column(Float)
+    days_per_year: Mapped[float | None] = mapped_column(Float)
+    hours_per_day: Mapped[float | None] = mapped_column(Float)
+    cycle_time_s: Mapped[float | None] = mapped_column(Float)
+    dcavg_percent: Mapped[float | None] = mapped_column(Float)
+    ccf_points: Mapped[int | None] = mapped_column(Integer)
+    well_tried: Mapped[bool] = mapped_column(Boolean, default=False)
+    test_rate_ratio: Mapped[float | None] = mapped_column(Float)
+    installed_on: Mapped[dt.date | None] = mapped_column()
+
+    safety_function: Mapped[SafetyFunction] = relationship(back_populates="parts")
+    component: Mapped[Component | None] = relationship()
+
+
+class SafeguardOption(Base):
+    """A candidate measure weighed for a hazard; the chosen one carries the reason."""
+
+    __tablename__ = "safeguard_option"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    hazard_id: Mapped[int] = mapped_column(ForeignKey("hazard.id"), index=True)
+    kind: Mapped[str] = mapped_column(String(40))
+    reachable_pl: Mapped[str | None] = mapped_column(String(1))
+    space_available_mm: Mapped[float | None] = mapped_column(Float)
+    cost: Mapped[float | None] = mapped_column(Float)
+    effect_on_work: Mapped[str] = mapped_column(Text, default="")
+    chosen: Mapped[bool] = mapped_column(Boolean, default=False)
+    reason: Mapped[str] = mapped_column(Text, default="")
+
+    hazard: Mapped[Hazard] = relationship()
+
+
+class HazardAccess(Base):
+    """What the task asks of the safeguard choice: access, ejection, others nearby."""
+
+    __tablename__ = "hazard_access"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    hazard_id: Mapped[int] = mapped_column(ForeignKey("hazard.id"), unique=True)
+    access: Mapped[str] = mapped_column(String(20), default="frequent")
+    ejection: Mapped[bool] = mapped_column(Boolean, default=False)
+    other_people_exposed: Mapped[bool] = mapped_column(Boolean, default=False)
+    hand_feeding: Mapped[bool] = mapped_column(Boolean, default=False)
+    chosen_reason: Mapped[str] = mapped_column(Text, default="")
+    chosen_by: Mapped[str] = mapped_column(String(200), default="")
+
+    hazard: Mapped[Hazard] = relationship()
