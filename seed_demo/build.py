@@ -10,7 +10,7 @@ from typing import Any
 from sqlalchemy.orm import Session
 
 from riskreg.model import Machine
-from riskreg.services import register, users
+from riskreg.services import register, safeguards, users
 from riskreg.services.audit import set_actor
 
 DEMO_PASSWORD = "demo-password-2026"
@@ -658,4 +658,322 @@ def build(session: Session) -> list[tuple[str, str]]:
         True,
         "No guard across the blade line; use SH-401 until the finger guard is fitted.",
     )
+    build_safeguards(session, machines, people["assessor"].name)
     return [(email, role) for email, _name, role in PEOPLE]
+
+
+# Invented parts for the component library (makers and figures are made up).
+COMPONENTS = [
+    {
+        "maker": "Corvane Sensing",
+        "model": "SG-14/1200",
+        "kind": "light curtain",
+        "pl": "e",
+        "category": "4",
+        "pfhd": "2.6e-9",
+        "response_time_ms": "15",
+        "espe_type": "4",
+        "document": "Corvane SG data sheet rev. 7 (demo)",
+    },
+    {
+        "maker": "Halden Relays",
+        "model": "SR-3",
+        "kind": "safety relay",
+        "pl": "e",
+        "category": "4",
+        "pfhd": "1.2e-9",
+        "response_time_ms": "10",
+        "document": "Halden SR-3 certificate (demo)",
+    },
+    {
+        "maker": "Pellor Valves",
+        "model": "DV-22",
+        "kind": "double press valve",
+        "b10d": "20000000",
+        "category": "4",
+        "document": "Pellor DV-22 data sheet (demo)",
+    },
+]
+
+TWO_HAND_SERIES = {
+    "simultaneous": "y",
+    "cessation": "y",
+    "category": "1",
+    "spacing_mm": "600",
+    "actuators_per_station": "2",
+    "series_wired": "y",
+}
+TWO_HAND_III = {
+    "simultaneous": "y",
+    "cessation": "y",
+    "reinitiation": "y",
+    "synchronous_window_ms": "500",
+    "category": "4",
+    "spacing_mm": "600",
+    "actuators_per_station": "2",
+    "anti_repeat": "y",
+}
+
+# tag → list of (safeguard data)
+SAFEGUARDS: dict[str, list[dict[str, Any]]] = {
+    "PR-101": [
+        {
+            "kind": "light_curtain",
+            "label": "Front light curtain",
+            "component": 0,
+            "response_time_ms": "20",
+            "installed_distance_mm": "450",
+            "espe_type": "4",
+            "resolution_mm": "14",
+            "blanking": "none",
+            "restart_interlock": "y",
+        }
+    ],
+    "PR-102": [
+        dict(
+            TWO_HAND_SERIES,
+            kind="two_hand_control",
+            label="Push-button pair at each operator",
+            response_time_ms="0",
+            installed_distance_mm="560",
+            operators="2",
+            stations="2",
+        )
+    ],
+    "PR-103": [
+        dict(
+            TWO_HAND_III,
+            kind="two_hand_control",
+            label="Two-hand control station with anti-tie-down",
+            response_time_ms="10",
+            installed_distance_mm="650",
+            operators="1",
+            stations="1",
+        )
+    ],
+    "PR-104": [
+        dict(
+            TWO_HAND_III,
+            kind="two_hand_control",
+            label="Two-hand trip station",
+            response_time_ms="0",
+            installed_distance_mm="700",
+            operators="1",
+            stations="1",
+            category="3",
+        )
+    ],
+    "HP-201": [
+        {
+            "kind": "interlocking_guard",
+            "label": "Front sliding door interlock",
+            "response_time_ms": "30",
+            "installed_distance_mm": "900",
+            "device_type": "4",
+            "coding": "high",
+            "motivation_to_defeat": "medium",
+            "opening_c_mm": "120",
+            "measures_against_defeat": ["hidden mounting"],
+        }
+    ],
+    "PB-301": [
+        {
+            "kind": "light_curtain",
+            "label": "Tool-front light curtain",
+            "response_time_ms": "15",
+            "installed_distance_mm": "420",
+            "espe_type": "4",
+            "resolution_mm": "14",
+            "blanking": "none",
+            "restart_interlock": "y",
+        }
+    ],
+    "RC-501": [
+        {
+            "kind": "light_curtain",
+            "label": "Turntable light curtain",
+            "response_time_ms": "18",
+            "installed_distance_mm": "950",
+            "espe_type": "4",
+            "resolution_mm": "30",
+            "blanking": "none",
+            "restart_interlock": "y",
+            "person_can_stand_inside": "y",
+        },
+        {
+            "kind": "interlocking_guard_locking",
+            "label": "Cell door with guard locking",
+            "response_time_ms": "20",
+            "device_type": "4",
+            "coding": "high",
+            "motivation_to_defeat": "low",
+        },
+    ],
+}
+
+# tag → list of (date, trials in ms, position, instrument)
+MEASUREMENTS: dict[str, list[tuple[str, str, str]]] = {
+    "PR-101": [
+        ("2025-12-04", "170, 175, 178", "90° of crank rotation"),
+        ("2026-06-10", "180, 183, 185", "90° of crank rotation"),
+        ("2026-11-18", "240, 246, 251", "90° of crank rotation"),
+    ],
+    "PR-102": [("2026-09-02", "150, 152, 158", "90° of crank rotation")],
+    "PR-103": [("2026-10-14", "180, 184, 186", "90° of crank rotation")],
+    "PR-104": [("2026-08-21", "210, 214, 212", "90° of crank rotation")],
+    "HP-201": [("2026-07-30", "120, 126, 131", "ram at mid-stroke")],
+    "PB-301": [("2026-05-12", "95, 98, 101", "closing speed")],
+    "RC-501": [("2026-03-03", "310, 318, 322", "robot at full speed, axis 1")],
+}
+
+
+def build_safeguards(session: Session, machines: dict[str, Machine], assessor: str) -> None:
+    """Safeguard records, press data, measurements (which run the distance checks and
+    open corrective actions), a verified safety function and a weighed choice."""
+    parts = [safeguards.save_component(session, c) for c in COMPONENTS]
+    for tag, items in SAFEGUARDS.items():
+        for item in items:
+            data = dict(item)
+            if "component" in data:
+                data["component_id"] = parts[data.pop("component")].id
+            measures = register.current_assessment(machines[tag]).measures
+            match = next(
+                (x for x in measures if x.kind == data["kind"] and x.status == "installed"), None
+            )
+            data["measure_id"] = match.id if match else None
+            safeguards.save_safeguard(session, machines[tag], data)
+    safeguards.save_press_profile(
+        session,
+        machines["PR-101"],
+        {
+            "clutch": "part",
+            "brake_monitor": "y",
+            "control_reliable": "y",
+            "anti_repeat": "y",
+            "single_stroke": "y",
+        },
+    )
+    for on, ms, note in (
+        ("2024-02-01", "220", "commissioning"),
+        ("2026-06-10", "260", "raised after brake relining"),
+    ):
+        safeguards.add_monitor_setting(
+            session,
+            machines["PR-101"],
+            {"set_on": on, "setpoint_ms": ms, "set_by": assessor, "note": note},
+        )
+    safeguards.save_press_profile(
+        session,
+        machines["PR-104"],
+        {
+            "clutch": "full",
+            "engaging_points": "2",
+            "revolution_time_ms": "500",
+            "anti_repeat": "y",
+            "single_stroke": "y",
+        },
+    )
+    for tag in ("PR-102", "PR-103"):
+        safeguards.save_press_profile(
+            session,
+            machines[tag],
+            {
+                "clutch": "part",
+                "brake_monitor": "y",
+                "control_reliable": tag == "PR-103" and "y",
+                "anti_repeat": tag == "PR-103" and "y",
+                "single_stroke": "y",
+            },
+        )
+    for tag, rows in MEASUREMENTS.items():
+        for on, trials, position in rows:
+            safeguards.record_measurement(
+                session,
+                machines[tag],
+                {
+                    "measured_on": on,
+                    "trials_ms": trials,
+                    "position": position,
+                    "instrument": "Stop-time meter ST-2 (demo)",
+                    "measured_by": assessor,
+                },
+            )
+    # PR-101: the stop function of the light curtain, verified part by part
+    a = register.current_assessment(machines["PR-101"])
+    crush = a.hazards[0]
+    sf = register.add_safety_function(
+        session,
+        a,
+        {
+            "name": "Stop the slide when the light curtain is interrupted",
+            "trigger": "Any beam of the front light curtain interrupted during the closing stroke",
+            "reaction": "Stop the slide before a hand can reach the die; no restart until reset",
+            "modes": "run,inch",
+            "response_time_s": 0.035,
+            "hazard_ids": [crush.id],
+        },
+    )
+    safeguards.save_part(
+        session,
+        sf,
+        {"role": "input", "name": "Front light curtain", "given_pl": "e", "given_pfhd": "2.6e-9"},
+    )
+    safeguards.save_part(
+        session,
+        sf,
+        {"role": "logic", "name": "Safety relay SR-3", "given_pl": "e", "given_pfhd": "1.2e-9"},
+    )
+    safeguards.save_part(
+        session,
+        sf,
+        {
+            "role": "output",
+            "name": "Double press valve DV-22",
+            "category": "4",
+            "b10d": "20000000",
+            "days_per_year": "240",
+            "hours_per_day": "16",
+            "cycle_time_s": "4",
+            "dcavg_percent": "99",
+            "ccf_points": "80",
+        },
+    )
+    safeguards.save_access(
+        session,
+        crush,
+        {"access": "frequent", "hand_feeding": "y", "ejection": "y", "other_people_exposed": "y"},
+    )
+    options = [
+        safeguards.add_option(session, crush, o)
+        for o in (
+            {
+                "kind": "light_curtain",
+                "reachable_pl": "e",
+                "space_available_mm": "700",
+                "cost": "9000",
+                "effect_on_work": "Free hand feeding; no extra motion",
+            },
+            {
+                "kind": "two_hand_control",
+                "reachable_pl": "e",
+                "space_available_mm": "700",
+                "cost": "4000",
+                "effect_on_work": "Both hands off the part each stroke; slower",
+            },
+            {
+                "kind": "fixed_guard",
+                "reachable_pl": None,
+                "space_available_mm": None,
+                "cost": "2500",
+                "effect_on_work": "Blanks cannot be fed by hand through it",
+            },
+        )
+    ]
+    safeguards.choose_option(
+        session,
+        options[0],
+        "Blanks are fed by hand every stroke, so a fixed guard is not "
+        "workable; the curtain protects the second person who clears "
+        "slugs, which a two-hand control would not.",
+        assessor,
+    )

@@ -284,6 +284,15 @@ def save_safeguard(
             component = None
         if component is None:
             errs.add("component_id", "Choose a part from the component library, or none.")
+    measure = None
+    if data.get("measure_id") not in (None, ""):
+        try:
+            mid = int(data["measure_id"])
+        except (TypeError, ValueError):
+            mid = -1
+        measure = next((x for a in machine.assessments for x in a.measures if x.id == mid), None)
+        if measure is None:
+            errs.add("measure_id", "Choose one of this machine's protective measures, or none.")
     params = _validate_parameters(str(kind), data, errs)
     if kind in DISTANCE_KINDS and installed is None and status == "installed":
         errs.add(
@@ -301,6 +310,8 @@ def save_safeguard(
     safeguard.installed_distance_mm = installed
     safeguard.status = status
     safeguard.component = component
+    if measure is not None or "measure_id" in data:
+        safeguard.measure = measure
     safeguard.parameters = params
     _commit(session)
     return safeguard
@@ -502,6 +513,20 @@ def _distance_result(
     return None
 
 
+def required_pl_of(sg: Safeguard) -> str | None:
+    """The highest current PLr over the hazards of the measure this safeguard implements."""
+    if sg.measure is None:
+        return None
+    from .register import current_rating
+
+    levels = []
+    for h in sg.measure.hazards:
+        r = current_rating(h, "initial")
+        if r is not None and r.method == "iso13849" and not h.archived:
+            levels.append(r.level)
+    return max(levels) if levels else None
+
+
 def evaluate(
     sg: Safeguard, t_stop_s: float | None, method: str = "ISO", profile: PressProfile | None = None
 ) -> Evaluation:
@@ -526,6 +551,17 @@ def evaluate(
             )
             ev.results.append(("Two-hand control type (ISO 13851)", r))
             ev.problems.extend(r.derivation.problems)
+            plr = required_pl_of(sg)
+            if plr is not None and (r.type_pl is None or r.type_pl < plr):
+                shown = (
+                    f"Type {r.type} corresponds to PL {r.type_pl}"
+                    if r.type
+                    else ("The device reaches no ISO 13851 type")
+                )
+                ev.problems.append(
+                    f"{shown}, below the PLr {plr} of the hazards it guards "
+                    "(ISO 13849-1 risk graph)."
+                )
         if t_stop_s is not None and sg.kind in DISTANCE_KINDS:
             dr = _distance_result(sg, t_stop_s, method, profile)
             if dr is not None:
@@ -544,11 +580,11 @@ def evaluate(
             ev.passed = ev.installed_mm >= ev.required_mm
             gap = ev.installed_mm - ev.required_mm
             ev.message = (
-                f"Installed {ev.installed_mm:.0f} mm against required {ev.required_mm:.0f} mm: "
+                f"Installed {ev.installed_mm:.0f} mm, required {ev.required_mm:.0f} mm: "
                 + (
-                    f"passes with {gap:.0f} mm to spare."
+                    f"{gap:.0f} mm to spare."
                     if ev.passed
-                    else f"FAILS, {-gap:.0f} mm short. Move the device out, reduce the stopping "
+                    else f"{-gap:.0f} mm short. Move the device out, reduce the stopping "
                     "time, or stop the machine until it is corrected."
                 )
             )

@@ -160,12 +160,13 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
             "file (a photo from a phone is usually 2–5 MB).",
         ), 413
 
-    from . import auth, hazards, machines, sites
+    from . import auth, hazards, machines, safeguards, sites
 
     app.register_blueprint(auth.bp)
     app.register_blueprint(sites.bp)
     app.register_blueprint(machines.bp)
     app.register_blueprint(hazards.bp)
+    app.register_blueprint(safeguards.bp)
 
     from .helpers import register_template_helpers
 

@@ -18,7 +18,7 @@ from flask import (
 from flask_login import current_user
 
 from riskreg.model import EvidenceFile, Machine, Site
-from riskreg.services import evidence, library, register
+from riskreg.services import evidence, library, register, safeguards
 from riskreg.services.errors import Conflict, NotFound, ValidationError
 
 from . import db
@@ -91,6 +91,13 @@ def machine(machine_id: int) -> Any:
     for h in hazards:
         by_task.setdefault(h.task_id, []).append(h)
     functions = [(f, register.required_level(f)) for f in a.safety_functions if not f.archived]
+    latest = safeguards.latest_measurement(m)
+    profile = safeguards.press_profile(m)
+    guards = [
+        safeguards.evaluate(s, latest.t_used_s if latest else None, m.site.distance_method, profile)
+        for s in safeguards.safeguards_of(m)
+    ]
+    actions = safeguards.actions_of(db(), m)
     return render_template(
         "machine.html",
         machine=m,
@@ -102,6 +109,11 @@ def machine(machine_id: int) -> Any:
         functions=functions,
         archived=[h for h in a.hazards if h.archived],
         current_rating=register.current_rating,
+        guards=guards,
+        latest=latest,
+        measurements=safeguards.measurements_of(m)[:5],
+        actions=actions,
+        profile=profile,
         title=f"{m.asset_tag} {m.name}",
     )
 
@@ -202,7 +214,6 @@ def do_not_operate(machine_id: int) -> Any:
         except ValidationError as exc:
             db().rollback()
             apply_errors(form, exc)
-            form.reason.errors = list(form.reason.errors) + [exc.errors.get("reason", "")]
     status = 400 if request.method == "POST" else 200
     return render_template(
         "simple_form.html",
