@@ -132,7 +132,7 @@ def _plain(value: Any) -> Any:
     if isinstance(value, float):
         if math.isinf(value) or math.isnan(value):
             return None
-        return value
+        return float(f"{value:.12g}")  # drop binary-rounding noise such as 12.600000000000001
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
         out = {f.name: _plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
         if isinstance(value, Derivation):
