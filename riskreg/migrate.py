@@ -31,3 +31,16 @@ def downgrade(engine: Engine, revision: str = "base") -> None:
     with engine.begin() as conn:
         cfg.attributes["connection"] = conn
         command.downgrade(cfg, revision)
+
+
+def head_revision() -> str | None:
+    from alembic.script import ScriptDirectory
+
+    return ScriptDirectory.from_config(alembic_config("sqlite://")).get_current_head()
+
+
+def current_revision(engine: Engine) -> str | None:
+    from alembic.migration import MigrationContext
+
+    with engine.connect() as conn:
+        return MigrationContext.configure(conn).get_current_revision()

@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 
 import click
+from sqlalchemy.exc import SQLAlchemyError
 
 from riskreg.engineering.derivation import InputError
 
@@ -50,4 +51,8 @@ def main(argv: list[str] | None = None) -> None:
     except InputError as exc:
         click.echo(f"riskreg: error: {exc}", err=True)
         sys.exit(2)
+    except SQLAlchemyError as exc:
+        detail = " ".join(str(getattr(exc, "orig", None) or exc).split())[:300]
+        click.echo(f"riskreg: error: the database refused the operation: {detail}", err=True)
+        sys.exit(1)
     sys.exit(rv if isinstance(rv, int) else 0)

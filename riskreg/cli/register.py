@@ -40,6 +40,12 @@ def open_session(db: str | None, *, must_exist: bool = True) -> Iterator[Session
     try:
         if must_exist and "machine" not in inspect(engine).get_table_names():
             raise CliError("the database has no register in it; run 'riskreg init' first")
+        if must_exist and migrate.current_revision(engine) != migrate.head_revision():
+            raise CliError(
+                "the database's schema is older than this version of riskreg; "
+                "back it up, then run 'riskreg init --no-admin' with the same --db "
+                "to upgrade it"
+            )
     except OperationalError as exc:
         raise CliError(f"cannot open the database: {exc.orig}") from None
     factory = session_factory(engine)
@@ -171,4 +177,47 @@ def machines_cmd(db: str | None, site: str | None, as_json: bool) -> None:
         click.echo(
             f"{i['asset_tag']:10s} {i['name']:36s} {i['kind']:18s} {i['site']} / "
             f"{i['area'] or '-'}{flag}"
+        )
+
+
+@cli.command("due")
+@db_option
+@click.option("--site", default=None, help="The site (needed when there are several).")
+@click.option(
+    "--within",
+    "within",
+    default=None,
+    type=click.IntRange(0, 3650),
+    metavar="DAYS",
+    help="Only what is overdue or due within DAYS days.",
+)
+@click.option("--json", "as_json", is_flag=True, help="Print a JSON list.")
+def due_cmd(db: str | None, site: str | None, within: int | None, as_json: bool) -> None:
+    """What is due or overdue: verifications, checks, replacements, calibrations."""
+    from riskreg.services import due
+
+    with open_session(db) as session:
+        try:
+            s = register.get_site(session, site)
+        except NotFound as exc:
+            raise CliError(str(exc)) from None
+        items = due.due_items(session, s, within_days=within)
+    if as_json:
+        click.echo(json.dumps([i.to_json() for i in items], ensure_ascii=False))
+        return
+    if not items:
+        click.echo("Nothing due.")
+        return
+    for i in items:
+        when = (
+            f"{i.days_overdue} days OVERDUE"
+            if i.days_overdue > 0
+            else "due today"
+            if i.days_overdue == 0
+            else f"due in {-i.days_overdue} days"
+        )
+        what = " / ".join(x for x in (i.machine, i.safeguard or "") if x) or "site"
+        click.echo(
+            f"{i.due_date}  {when:18s} {what:40s} {i.kind_label}"
+            + (f" — {i.detail}" if i.detail else "")
         )

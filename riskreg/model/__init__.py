@@ -422,6 +422,7 @@ class StoppingTimeMeasurement(Base):
     t_used_s: Mapped[float] = mapped_column(Float)
     derivation: Mapped[dict[str, Any]] = mapped_column()
     notes: Mapped[str] = mapped_column(Text, default="")
+    instrument_id: Mapped[int | None] = mapped_column(ForeignKey("instrument.id"))
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
 
     machine: Mapped[Machine] = relationship()
@@ -462,6 +463,8 @@ class CorrectiveAction(Base):
     due_on: Mapped[dt.date | None] = mapped_column()
     status: Mapped[str] = mapped_column(String(20), default="open")  # open, closed
     closing_note: Mapped[str] = mapped_column(Text, default="")
+    verification_id: Mapped[int | None] = mapped_column(ForeignKey("verification.id"))
+    closing_evidence_id: Mapped[int | None] = mapped_column(ForeignKey("evidence_file.id"))
     closed_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
 
@@ -531,3 +534,125 @@ class HazardAccess(Base):
     chosen_by: Mapped[str] = mapped_column(String(200), default="")
 
     hazard: Mapped[Hazard] = relationship()
+
+
+# --- keeping safeguards trusted: verification, due dates, checks, instruments ---------
+
+verification_evidence = Table(
+    "verification_evidence",
+    Base.metadata,
+    Column("verification_id", ForeignKey("verification.id"), primary_key=True),
+    Column("evidence_file_id", ForeignKey("evidence_file.id"), primary_key=True),
+)
+
+
+class Instrument(Base):
+    """A measuring instrument (e.g. a stop-time meter) and its calibration."""
+
+    __tablename__ = "instrument"
+    __table_args__ = (UniqueConstraint("site_id", "name"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("site.id"), index=True)
+    name: Mapped[str] = mapped_column(String(120))
+    serial: Mapped[str] = mapped_column(String(120), default="")
+    calibrated_on: Mapped[dt.date | None] = mapped_column()
+    calibration_interval_days: Mapped[int] = mapped_column(Integer, default=365)
+    certificate_id: Mapped[int | None] = mapped_column(ForeignKey("evidence_file.id"))
+    active: Mapped[bool] = mapped_column(Boolean, default=True)
+
+    site: Mapped[Site] = relationship()
+
+
+class Verification(Base):
+    """One verification of a safeguard or safety function, with its evidence."""
+
+    __tablename__ = "verification"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    safeguard_id: Mapped[int | None] = mapped_column(ForeignKey("safeguard.id"), index=True)
+    kind: Mapped[str] = mapped_column(String(30), index=True)
+    performed_on: Mapped[dt.date] = mapped_column(index=True)
+    performed_by: Mapped[str] = mapped_column(String(200))
+    result: Mapped[str] = mapped_column(String(20))  # pass, fail, remarks
+    measured_values: Mapped[str] = mapped_column(Text, default="")
+    notes: Mapped[str] = mapped_column(Text, default="")
+    press_serial: Mapped[str] = mapped_column(String(120), default="")
+    signature: Mapped[str] = mapped_column(String(200), default="")
+    instrument_id: Mapped[int | None] = mapped_column(ForeignKey("instrument.id"))
+    measurement_id: Mapped[int | None] = mapped_column(ForeignKey("stopping_time_measurement.id"))
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    machine: Mapped[Machine] = relationship()
+    safeguard: Mapped[Safeguard | None] = relationship()
+    instrument: Mapped[Instrument | None] = relationship()
+    evidence: Mapped[list[EvidenceFile]] = relationship(secondary=verification_evidence)
+
+
+class VerificationInterval(Base):
+    """Interval of a verification kind: per site, or per safeguard (which wins)."""
+
+    __tablename__ = "verification_interval"
+    __table_args__ = (UniqueConstraint("site_id", "safeguard_id", "kind"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("site.id"), index=True)
+    safeguard_id: Mapped[int | None] = mapped_column(ForeignKey("safeguard.id"))
+    kind: Mapped[str] = mapped_column(String(30))
+    days: Mapped[int] = mapped_column(Integer)
+
+
+class ShiftChecklist(Base):
+    __tablename__ = "shift_checklist"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), unique=True)
+    items: Mapped[list[Any]] = mapped_column()
+    shifts_per_day: Mapped[int] = mapped_column(Integer, default=1)
+    working_days: Mapped[str] = mapped_column(String(20), default="12345")  # ISO weekdays
+    active_since: Mapped[dt.date] = mapped_column()
+
+    machine: Mapped[Machine] = relationship()
+
+
+class ShiftCheck(Base):
+    __tablename__ = "shift_check"
+    __table_args__ = (UniqueConstraint("machine_id", "shift_date", "shift"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    shift_date: Mapped[dt.date] = mapped_column(index=True)
+    shift: Mapped[int] = mapped_column(Integer, default=1)
+    performed_by: Mapped[str] = mapped_column(String(200))
+    failed_items: Mapped[list[Any]] = mapped_column(default=list)
+    notes: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+
+class LockoutProcedure(Base):
+    """An energy-control (lockout) procedure of a machine; inspected periodically."""
+
+    __tablename__ = "lockout_procedure"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    title: Mapped[str] = mapped_column(String(200))
+    last_inspected_on: Mapped[dt.date | None] = mapped_column()
+    interval_days: Mapped[int] = mapped_column(Integer, default=365)
+    inspected_by: Mapped[str] = mapped_column(String(200), default="")
+
+    machine: Mapped[Machine] = relationship()
+
+
+class CalendarToken(Base):
+    """A revocable secret for a site's iCalendar feed of due dates."""
+
+    __tablename__ = "calendar_token"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("site.id"), index=True)
+    token_hash: Mapped[str] = mapped_column(String(64), unique=True)
+    label: Mapped[str] = mapped_column(String(120), default="")
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+    revoked_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))

@@ -669,6 +669,16 @@ def record_measurement(
     if allowance is None:
         allowance = site.stop_time_allowance_percent or 0.0
     limit_ms = _num(data, "brake_monitor_limit_ms", errs, lo=0, hi=10000, exclusive_lo=True)
+    instrument = None
+    if data.get("instrument_id") not in (None, ""):
+        from riskreg.model import Instrument
+
+        try:
+            instrument = session.get(Instrument, int(data["instrument_id"]))
+        except (TypeError, ValueError):
+            instrument = None
+        if instrument is None or instrument.site_id != machine.site_id:
+            errs.add("instrument_id", "Choose one of this site's instruments.")
     errs.raise_if_any()
     try:
         st = stopping.stopping_time_from_trials(
@@ -691,6 +701,8 @@ def record_measurement(
         derivation=st.to_dict(),
         notes=str(data.get("notes") or "")[:5000],
     )
+    if instrument is not None:
+        m.instrument_id = instrument.id
     session.add(m)
     profile = press_profile(machine)
     for sg in safeguards_of(machine):
@@ -1077,3 +1089,22 @@ def close_action(session: Session, action: CorrectiveAction, note: str) -> None:
     action.closing_note = note[:5000]
     action.closed_at = dt.datetime.now(dt.UTC)
     _commit(session)
+
+
+def instrument_warning(session: Session, m: StoppingTimeMeasurement) -> str | None:
+    """A warning when the measurement was taken with an out-of-calibration instrument."""
+    if m.instrument_id is None:
+        return None
+    from riskreg.model import Instrument
+
+    from .verification import calibration_due, in_calibration
+
+    ins = session.get(Instrument, m.instrument_id)
+    if ins is None or in_calibration(ins, m.measured_on):
+        return None
+    due = calibration_due(ins)
+    when = f"its calibration ran out on {due}" if due else "it has no calibration recorded"
+    return (
+        f"Measured with {ins.name}, which was not in calibration on {m.measured_on} "
+        f"({when}): repeat the measurement with a calibrated instrument."
+    )
