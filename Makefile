@@ -10,7 +10,7 @@ STAMP   := $(VENV)/.installed
 $(STAMP): pyproject.toml constraints.txt
 	$(PY) -m venv $(VENV)
 	$(BIN)/pip install --quiet --upgrade pip
-	$(BIN)/pip install --quiet -c constraints.txt -e '.[test]'
+	$(BIN)/pip install --quiet --only-binary=playwright -c constraints.txt -e '.[test]'
 	touch $(STAMP)
 
 demo: $(STAMP)
@@ -27,7 +27,26 @@ unit: $(STAMP)
 	$(BIN)/pytest --cov=riskreg --cov-report= $(PYTEST_ARGS)
 	$(BIN)/coverage report --include='riskreg/engineering/*' --fail-under=95 --show-missing
 
-test: lint typecheck unit
+# The browser tests (tests/browser) drive Debian's Chromium through the Node.js driver
+# bundled in Playwright's wheel (hence --only-binary above); no browser is downloaded.
+# When Chromium is missing and we are root (a fresh CI machine), install it; a
+# developer who has it is left alone, one without it and without root is told how.
+HAVE_CHROMIUM ?= test -x "$${RISKREG_CHROMIUM:-}" || command -v chromium >/dev/null 2>&1 \
+	|| test -x /usr/bin/chromium
+
+system-deps:
+	@if $(HAVE_CHROMIUM); then \
+	  :; \
+	elif [ "$$(id -u)" = 0 ]; then \
+	  echo "Chromium is missing; installing it for the browser tests (apt-get)."; \
+	  export DEBIAN_FRONTEND=noninteractive; \
+	  apt-get update && apt-get install -y chromium; \
+	else \
+	  echo "Chromium is missing and only root can install it; the browser tests will" \
+	       "fail until you run: sudo apt-get install -y chromium" >&2; \
+	fi
+
+test: system-deps lint typecheck unit
 
 clean:
 	rm -rf $(VENV) .pytest_cache .mypy_cache .ruff_cache .coverage
