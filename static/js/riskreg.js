@@ -53,6 +53,7 @@
       });
       if (missing.length) {
         show("", "Still to choose: " + missing.join(", ") + ".");
+        out.textContent = "choose below";
         return;
       }
       var mine = ++seq;
@@ -61,9 +62,7 @@
         .then(function (data) {
           if (mine !== seq) { return; }
           if (!data.level) { show("", "Still to choose: " + (data.missing || []).join(", ") + "."); return; }
-          var text = (data.steps || []).join(" ");
-          if (data.warnings && data.warnings.length) { text += " " + data.warnings[0]; }
-          show(data.level, text);
+          show(data.level, (data.steps || []).join("; "));
         })
         .catch(function () { show("", "Shown when saved (no connection to the server)."); });
     }

@@ -146,7 +146,7 @@ def test_hazard_form_works_without_javascript(page_no_js: Page, artifacts: Path)
     choose(page, "f", "F2")
     choose(page, "p", "P2")
     # Nothing computes the level in the page: it keeps the text the server wrote.
-    expect(page.locator("#live-level")).to_have_text("choose below")
+    expect(page.locator("#live-level")).to_have_text("computed on save")
     shot(page, artifacts, "nojs-05-hazard-form-filled")
 
     page.get_by_role("button", name="Save hazard").click()
