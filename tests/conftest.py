@@ -45,12 +45,55 @@ def db_url(tmp_path: Path) -> Iterator[str]:
         admin.dispose()
 
 
-@pytest.fixture
-def engine(db_url: str) -> Iterator[Engine]:
-    eng = make_engine(db_url)
+TEMPLATE = "riskreg_template_head"
+
+
+@pytest.fixture(scope="session")
+def _pg_template() -> Iterator[str | None]:
+    """On PostgreSQL, migrate once into a template; each test copies it (much faster)."""
+    pg = _postgres_url()
+    if pg is None:
+        yield None
+        return
+    admin = make_engine(pg, isolation_level="AUTOCOMMIT")
+    with admin.connect() as conn:
+        conn.execute(text(f'DROP DATABASE IF EXISTS "{TEMPLATE}"'))
+        conn.execute(text(f'CREATE DATABASE "{TEMPLATE}"'))
+    base = pg.rsplit("/", 1)[0]
+    eng = make_engine(f"{base}/{TEMPLATE}")
     migrate.upgrade(eng)
-    yield eng
     eng.dispose()
+    try:
+        yield TEMPLATE
+    finally:
+        with admin.connect() as conn:
+            conn.execute(text(f'DROP DATABASE IF EXISTS "{TEMPLATE}"'))
+        admin.dispose()
+
+
+@pytest.fixture
+def engine(tmp_path: Path, _pg_template: str | None) -> Iterator[Engine]:
+    """A database migrated to head (a fresh copy of the template on PostgreSQL)."""
+    pg = _postgres_url()
+    if pg is None:
+        eng = make_engine(f"sqlite:///{tmp_path / 'test.sqlite'}")
+        migrate.upgrade(eng)
+        yield eng
+        eng.dispose()
+        return
+    name = "t_" + uuid.uuid4().hex[:12]
+    admin = make_engine(pg, isolation_level="AUTOCOMMIT")
+    with admin.connect() as conn:
+        conn.execute(text(f'CREATE DATABASE "{name}" TEMPLATE "{_pg_template}"'))
+    base = pg.rsplit("/", 1)[0]
+    eng = make_engine(f"{base}/{name}")
+    try:
+        yield eng
+    finally:
+        eng.dispose()
+        with admin.connect() as conn:
+            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
+        admin.dispose()
 
 
 @pytest.fixture
@@ -59,3 +102,9 @@ def session(engine: Engine) -> Iterator[Session]:
     audit.install(factory)
     with factory() as s:
         yield s
+
+
+@pytest.fixture
+def engine_url(engine: Engine) -> str:
+    """The URL of the migrated database, for code that opens its own engine."""
+    return engine.url.render_as_string(hide_password=False)

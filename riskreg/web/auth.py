@@ -75,7 +75,7 @@ def _throttled(key: tuple[str, str]) -> bool:
 
 
 def _safe_next(target: str | None) -> str:
-    if target:
+    if target and "\\" not in target:
         parts = urlsplit(target)
         if (
             not parts.scheme

@@ -1,0 +1,494 @@
+"""Every route of the app, from a table of expectations: who may open it, who may
+write through it, and what a write stores. A route added without a row here
+fails ``test_every_route_has_a_row``."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+from urllib.parse import parse_qs, urlsplit
+
+import pytest
+from flask import Flask
+from flask.testing import FlaskClient
+from sqlalchemy import func, select
+from webtools import NAMES, PASSWORD, ROLES, Seed, Store, csrf_token
+
+from riskreg.model import (
+    Assessment,
+    Hazard,
+    Machine,
+    ProtectiveMeasure,
+    RiskRating,
+    SafetyFunction,
+    Task,
+    User,
+)
+from riskreg.services import library
+from riskreg.vocab import ROLE_RANK
+
+Data = Callable[[Store, Seed], dict[str, Any]]
+Probe = Callable[[Store, Seed], Any]
+
+
+@dataclass(frozen=True)
+class Row:
+    """What one endpoint must do.
+
+    access: "public" (no login), "read" (any logged-in role), "write" (``role``
+    or above), "session" (any logged-in role; log out).
+    For a write route: ``data`` is a valid form, ``probe`` reads the stored state
+    it changes and ``want`` gives the state after the write from the state before.
+    """
+
+    access: str
+    url: Callable[[Seed], str]
+    methods: tuple[str, ...] = ("GET",)
+    role: str | None = None
+    data: Data | None = None
+    probe: Probe | None = None
+    want: Callable[[Any], Any] | None = None
+
+
+def _machine_form(store: Store, seed: Seed, **over: Any) -> dict[str, Any]:
+    data = {
+        "version": str(store.machine(seed.machine_id, "version")),
+        "asset_tag": "P-01",
+        "name": "200 t straight-side press",
+        "kind": "mechanical_press",
+        "area_id": str(seed.area_id),
+        "maker": "",
+        "model": "",
+        "serial": "",
+        "year": "2001",
+        "location": "",
+        "notes": "",
+    }
+    data.update(over)
+    return data
+
+
+def _hazard_form(store: Store, seed: Seed, **over: Any) -> dict[str, Any]:
+    data = {
+        "version": str(store.hazard(seed.hazard_id, "version")),
+        "task_id": str(seed.task_id),
+        "hazard_group": "mechanical",
+        "hazard_type": "crushing",
+        "danger_zone": "Die space",
+        "event": "Hand between the dies as the slide descends",
+        "harm": "Amputation of fingers",
+        "persons_exposed": "operator",
+        "method": "iso13849",
+        "stage": "initial",
+        "s": "S2",
+        "f": "F1",
+        "p": "P2",
+    }
+    data.update(over)
+    return data
+
+
+def _count(model: type[Any], **where: str) -> Probe:
+    def probe(store: Store, seed: Seed) -> int:
+        conds = [getattr(model, k) == getattr(seed, v) for k, v in where.items()]
+        return store.count(model, *conds)
+
+    return probe
+
+
+def _plus(n: int) -> Callable[[Any], Any]:
+    return lambda before: before + n
+
+
+def _becomes(value: Any) -> Callable[[Any], Any]:
+    return lambda _before: value
+
+
+def _assessment_scope(store: Store, seed: Seed) -> str:
+    return str(store.value(Assessment, seed.assessment_id, "scope"))
+
+
+def _residual_accepted(store: Store, seed: Seed) -> bool:
+    return store.hazard(seed.hazard_id, "residual_accepted_by_id") is not None
+
+
+ROUTES: dict[str, Row] = {
+    "static": Row("public", lambda s: "/static/css/riskreg.css"),
+    "auth.login": Row("public", lambda s: "/login", ("GET", "POST")),
+    "auth.logout": Row("session", lambda s: "/logout", ("POST",)),
+    "sites.overview": Row("read", lambda s: "/"),
+    "sites.site": Row("read", lambda s: f"/sites/{s.site_id}"),
+    "machines.machine": Row("read", lambda s: f"/machines/{s.machine_id}"),
+    "machines.file": Row("read", lambda s: f"/files/{s.file_id}"),
+    "hazards.rating_preview": Row(
+        "read",
+        lambda s: "/api/rating-preview?method=iso13849&severity=S2&frequency=F1&avoidance=P2",
+    ),
+    "machines.new_machine": Row(
+        "write",
+        lambda s: f"/sites/{s.site_id}/machines/new",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: _machine_form(st, s, version="", asset_tag="P-77", name="Press brake 2"),
+        _count(Machine),
+        _plus(1),
+    ),
+    "machines.edit_machine": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/edit",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: _machine_form(st, s, name="200 t press, line A"),
+        lambda st, s: st.machine(s.machine_id, "name"),
+        _becomes("200 t press, line A"),
+    ),
+    "machines.clone": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/clone",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {"asset_tag": "P-02", "name": "", "serial": "S-2"},
+        _count(Machine),
+        _plus(1),
+    ),
+    "machines.do_not_operate": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/do-not-operate",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {"flag": "y", "reason": "Brake stopping time over the limit"},
+        lambda st, s: st.machine(s.machine_id, "do_not_operate"),
+        _becomes(True),
+    ),
+    "machines.edit_assessment": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/assessment",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {"scope": "Press and its feed table", "assessors": "A. Fieldwork"},
+        _assessment_scope,
+        _becomes("Press and its feed table"),
+    ),
+    "machines.new_task": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/tasks/new",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {"phase": "cleaning", "description": "Wipe the bolster"},
+        _count(Task),
+        _plus(1),
+    ),
+    "machines.from_library": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/library",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {},
+        _count(Hazard),
+        _plus(len(library.entries("mechanical_press"))),
+    ),
+    "machines.new_measure": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/measures/new",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {
+            "kind": "fixed_guard",
+            "description": "Fence at the rear of the press",
+            "status": "proposed",
+            "hazard_ids": [str(s.hazard_id)],
+            "safety_function_id": "",
+        },
+        _count(ProtectiveMeasure),
+        _plus(1),
+    ),
+    "machines.measure_status": Row(
+        "write",
+        lambda s: f"/measures/{s.measure_id}/status",
+        ("POST",),
+        "assessor",
+        lambda st, s: {"status": "installed"},
+        lambda st, s: st.value(ProtectiveMeasure, s.measure_id, "status"),
+        _becomes("installed"),
+    ),
+    "machines.new_function": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/functions/new",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {
+            "name": "Stop the slide when the rear gate opens",
+            "trigger": "Rear gate opened",
+            "reaction": "Slide stops",
+            "modes": ["run", "inch"],
+            "response_time_ms": "40",
+            "hazard_ids": [str(s.hazard_id)],
+        },
+        _count(SafetyFunction),
+        _plus(1),
+    ),
+    "hazards.new_hazard": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/hazards/new",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: _hazard_form(
+            st, s, version="", hazard_type="ejection of parts", event="Scrap thrown"
+        ),
+        _count(Hazard),
+        _plus(1),
+    ),
+    "hazards.edit_hazard": Row(
+        "write",
+        lambda s: f"/hazards/{s.hazard_id}/edit",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: _hazard_form(st, s, event="Hand in the die space on a repeat stroke"),
+        lambda st, s: st.hazard(s.hazard_id, "event"),
+        _becomes("Hand in the die space on a repeat stroke"),
+    ),
+    "hazards.rate": Row(
+        "write",
+        lambda s: f"/hazards/{s.hazard_id}/rate",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {"method": "iso13849", "stage": "residual", "s": "S1", "f": "F1", "p": "P1"},
+        _count(RiskRating, hazard_id="hazard_id"),
+        _plus(1),
+    ),
+    "hazards.accept": Row(
+        "write",
+        lambda s: f"/hazards/{s.hazard_id}/accept",
+        ("GET", "POST"),
+        "approver",
+        lambda st, s: {"interim": "Two-hand control until the curtain is fitted"},
+        _residual_accepted,
+        _becomes(True),
+    ),
+    "hazards.archive": Row(
+        "write",
+        lambda s: f"/hazards/{s.hazard_id}/archive",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {},
+        lambda st, s: st.hazard(s.hazard_id, "archived"),
+        _becomes(True),
+    ),
+}
+
+WRITES = [e for e, r in ROUTES.items() if r.access == "write"]
+NOT_PUBLIC = [(e, m) for e, r in ROUTES.items() if r.access != "public" for m in r.methods]
+
+
+def _allowed(role: str, least: str) -> bool:
+    return ROLE_RANK[role] >= ROLE_RANK[least]
+
+
+def _is_login_redirect(resp: Any) -> bool:
+    return resp.status_code == 302 and urlsplit(resp.headers["Location"]).path == "/login"
+
+
+# --- the table covers the app ----------------------------------------------------
+
+
+def test_every_route_has_a_row(app: Flask) -> None:
+    endpoints = {rule.endpoint for rule in app.url_map.iter_rules()}
+    missing = endpoints - set(ROUTES)
+    assert not missing, (
+        f"routes without a row in ROUTES (add one, with its expectations): {missing}"
+    )
+    assert not set(ROUTES) - endpoints, "rows for routes that no longer exist"
+
+
+def test_each_row_reaches_its_endpoint_with_its_methods(app: Flask, seed: Seed) -> None:
+    adapter = app.url_map.bind("localhost")
+    for endpoint, row in ROUTES.items():
+        path = urlsplit(row.url(seed)).path
+        rules = [r for r in app.url_map.iter_rules() if r.endpoint == endpoint]
+        served = {m for r in rules for m in r.methods or ()} - {"HEAD", "OPTIONS"}
+        assert served == set(row.methods), endpoint
+        for method in row.methods:
+            assert adapter.match(path, method=method)[0] == endpoint
+        if row.access == "write":
+            assert row.role in ROLE_RANK and row.data and row.probe and row.want, endpoint
+
+
+# --- anonymous -------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(("endpoint", "method"), NOT_PUBLIC)
+def test_anonymous_is_sent_to_the_login_page(
+    app: Flask, seed: Seed, store: Store, endpoint: str, method: str
+) -> None:
+    row = ROUTES[endpoint]
+    before = row.probe(store, seed) if row.probe else None
+    client = app.test_client()
+    data = row.data(store, seed) if (row.data and method == "POST") else {}
+    resp = client.open(row.url(seed), method=method, data=data)
+    assert _is_login_redirect(resp), (resp.status_code, resp.headers.get("Location"))
+    nxt = parse_qs(urlsplit(resp.headers["Location"]).query).get("next", [""])[0]
+    assert nxt.startswith(urlsplit(row.url(seed)).path)
+    if row.probe:
+        assert row.probe(store, seed) == before, "an anonymous request changed the register"
+
+
+def test_public_routes_open_without_login(app: Flask) -> None:
+    client = app.test_client()
+    assert client.get("/login").status_code == 200
+    css = client.get("/static/css/riskreg.css")
+    assert css.status_code == 200 and css.mimetype == "text/css"
+
+
+def test_anonymous_unknown_address_goes_to_login(app: Flask) -> None:
+    assert _is_login_redirect(app.test_client().get("/no/such/page"))
+
+
+# --- reading: every role -----------------------------------------------------------
+
+READS = [e for e, r in ROUTES.items() if r.access == "read"]
+
+
+@pytest.mark.parametrize("role", ROLES)
+@pytest.mark.parametrize("endpoint", READS)
+def test_every_role_can_read(
+    client_as: Callable[[str], FlaskClient], seed: Seed, endpoint: str, role: str
+) -> None:
+    client = client_as(role)
+    resp = client.get(ROUTES[endpoint].url(seed), follow_redirects=True)
+    assert resp.status_code == 200
+    if endpoint == "machines.file":
+        assert resp.mimetype == "image/jpeg"
+
+
+def test_machine_page_shows_the_register(
+    client_as: Callable[[str], FlaskClient], seed: Seed
+) -> None:
+    html = client_as("viewer").get(f"/machines/{seed.machine_id}").get_data(as_text=True)
+    assert "P-01" in html and "Hand between the dies as the slide descends" in html
+    assert "Stop the slide when the light curtain is interrupted" in html
+    # The viewer sees no write links.
+    assert f"/hazards/{seed.hazard_id}/edit" not in html
+    assert f"/machines/{seed.machine_id}/hazards/new" not in html
+
+
+# --- writing: by role --------------------------------------------------------------
+
+WRITE_CASES = [(e, r) for e in WRITES for r in ROLES]
+
+
+@pytest.mark.parametrize(("endpoint", "role"), WRITE_CASES)
+def test_write_permissions(
+    client_as: Callable[[str], FlaskClient], seed: Seed, store: Store, endpoint: str, role: str
+) -> None:
+    row = ROUTES[endpoint]
+    assert row.role and row.data and row.probe and row.want
+    client = client_as(role)
+    url = row.url(seed)
+    before = row.probe(store, seed)
+    allowed = _allowed(role, row.role)
+    if "GET" in row.methods:
+        page = client.get(url)
+        assert page.status_code == (200 if allowed else 403)
+        assert row.probe(store, seed) == before, "a GET changed the register"
+    resp = client.post(url, data=row.data(store, seed))
+    after = row.probe(store, seed)
+    if allowed:
+        assert resp.status_code == 302, resp.get_data(as_text=True)
+        assert after == row.want(before)
+    else:
+        assert resp.status_code == 403
+        assert "does not allow" in resp.get_data(as_text=True)
+        assert after == before, "a refused write changed the register"
+
+
+@pytest.mark.parametrize("role", ROLES)
+def test_only_approver_or_admin_may_accept_residual_risk(
+    client_as: Callable[[str], FlaskClient], seed: Seed, store: Store, role: str
+) -> None:
+    client = client_as(role)
+    may = role in ("approver", "admin")
+    link = f"/hazards/{seed.hazard_id}/accept"
+    # The link is shown only to those who may use it.
+    html = client.get(f"/machines/{seed.machine_id}").get_data(as_text=True)
+    assert (link in html) == may
+    resp = client.post(link, data={"interim": ""})
+    accepted_by = store.hazard(seed.hazard_id, "residual_accepted_by_id")
+    if may:
+        assert resp.status_code == 302
+        assert store.value(User, accepted_by, "email") == Seed.email(role)
+        html = client.get(f"/machines/{seed.machine_id}").get_data(as_text=True)
+        assert link not in html and f"Residual risk accepted by {NAMES[role]}" in html
+    else:
+        assert resp.status_code == 403 and accepted_by is None
+
+
+@pytest.mark.parametrize("role", ROLES)
+def test_log_out(client_as: Callable[[str], FlaskClient], role: str) -> None:
+    client = client_as(role)
+    assert client.get("/", follow_redirects=True).status_code == 200
+    resp = client.post("/logout")
+    assert _is_login_redirect(resp)
+    assert _is_login_redirect(client.get("/"))
+
+
+# --- CSRF ------------------------------------------------------------------------
+
+POSTS = [e for e, r in ROUTES.items() if "POST" in r.methods]
+
+
+def _csrf_login(client: FlaskClient, role: str) -> None:
+    token = csrf_token(client.get("/login").get_data(as_text=True))
+    resp = client.post(
+        "/login", data={"email": Seed.email(role), "password": PASSWORD, "csrf_token": token}
+    )
+    assert resp.status_code == 302
+
+
+@pytest.mark.parametrize("endpoint", POSTS)
+def test_post_without_csrf_token_is_refused(csrf_app: Flask, seed: Seed, endpoint: str) -> None:
+    store = Store(csrf_app)
+    row = ROUTES[endpoint]
+    client = csrf_app.test_client()
+    if endpoint != "auth.login":
+        _csrf_login(client, "admin")
+    data: dict[str, Any] = (
+        row.data(store, seed) if row.data else {"email": Seed.email("admin"), "password": PASSWORD}
+    )
+    before = row.probe(store, seed) if row.probe else None
+    for token in (None, "not-the-token"):
+        sent = dict(data) if token is None else dict(data, csrf_token=token)
+        resp = client.post(row.url(seed), data=sent)
+        assert resp.status_code == 400, (endpoint, resp.status_code)
+        assert "security token" in resp.get_data(as_text=True)
+        if row.probe:
+            assert row.probe(store, seed) == before, "a POST without its token changed the register"
+    # Still logged in (or still logged out, for the login form itself).
+    assert _is_login_redirect(client.get("/")) == (endpoint == "auth.login")
+
+
+def test_post_with_the_page_token_is_accepted(csrf_app: Flask, seed: Seed) -> None:
+    """The control for the test above: the same form with the page's token goes through."""
+    store = Store(csrf_app)
+    client = csrf_app.test_client()
+    _csrf_login(client, "assessor")
+    url = f"/machines/{seed.machine_id}/tasks/new"
+    before = store.count(Task)
+    token = csrf_token(client.get(url).get_data(as_text=True))
+    resp = client.post(
+        url, data={"phase": "cleaning", "description": "Wipe the bolster", "csrf_token": token}
+    )
+    assert resp.status_code == 302
+    assert store.count(Task) == before + 1
+
+
+def test_assessment_count_is_stable_on_refused_clone(
+    client_as: Callable[[str], FlaskClient], seed: Seed, store: Store
+) -> None:
+    """A refused clone writes no copy of the assessment either."""
+    with store.session() as s:
+        before = s.scalar(select(func.count()).select_from(Assessment))
+    resp = client_as("viewer").post(f"/machines/{seed.machine_id}/clone", data={"asset_tag": "X"})
+    assert resp.status_code == 403
+    with store.session() as s:
+        assert s.scalar(select(func.count()).select_from(Assessment)) == before
