@@ -117,5 +117,6 @@ def calc() -> None:
 from . import distance as _distance  # noqa: E402,F401
 from . import pl as _pl  # noqa: E402,F401
 from . import risk as _risk  # noqa: E402,F401
+from . import safeguards as _safeguards  # noqa: E402,F401
 from . import two_hand as _two_hand  # noqa: E402,F401
 from . import us as _us  # noqa: E402,F401

@@ -103,6 +103,140 @@ _ROWS += [
     for i, (lo, hi, mx) in enumerate(_O10, start=1)
 ]
 
+# Requirements used by riskreg.engineering.press (added later; rows above unchanged).
+# Each value is the requirement in plain words, recalled from memory
+# [reg, from memory]; check each against the current eCFR text.
+_ROWS += [
+    _c(
+        "req.point_of_operation",
+        "The employer must provide and ensure the use of point-of-operation guards or "
+        "properly applied and adjusted point-of-operation devices on every operation "
+        "performed on the press.",
+        "",
+        "(c)(1)(i)",
+    ),
+    _c(
+        "req.single_stroke_full_revolution",
+        "A press with a full-revolution clutch must have a single-stroke mechanism.",
+        "",
+        "(b)(3)(i)",
+        "sub-paragraph as recalled; to be checked",
+    ),
+    _c(
+        "req.full_revolution_no_presence_sensing",
+        "A presence-sensing device may not be used as the point-of-operation safeguard on a "
+        "press with a full-revolution clutch, which cannot stop the slide once the stroke "
+        "has started.",
+        "",
+        "(c)(3)(iii)",
+        "recalled as (c)(3)(iii)(a)",
+    ),
+    _c(
+        "req.presence_sensing_distance",
+        "A presence-sensing device must be set at least the safety distance "
+        "Ds = 63 in/s × Ts from the point of operation.",
+        "",
+        "(c)(3)(iii)",
+        "recalled as (c)(3)(iii)(e)",
+    ),
+    _c(
+        "req.two_hand_trip_controls",
+        "The hand controls of a two-hand trip must be protected against unintended "
+        "operation and require the concurrent use of both hands to trip the press.",
+        "",
+        "(b)(6)(i)",
+    ),
+    _c(
+        "req.two_hand_trip_anti_repeat",
+        "A two-hand trip on a full-revolution clutch press must have an anti-repeat feature.",
+        "",
+        "(b)(6)(ii)",
+    ),
+    _c(
+        "req.two_hand_trip_distance",
+        "The hand controls of a two-hand trip must be at least the safety distance "
+        "Dm = 63 in/s × Tm from the point of operation, Tm = (1/2 + 1/N) × Tr.",
+        "",
+        "(c)(3)(viii)",
+    ),
+    _c(
+        "req.two_hand_control_single_stroke",
+        "Two-hand controls for single stroke on a part-revolution clutch press must require "
+        "concurrent pressure from both hands during the die-closing portion of the stroke "
+        "and have an anti-repeat feature.",
+        "",
+        "(b)(7)(v)",
+        "sub-paragraph as recalled; to be checked",
+    ),
+    _c(
+        "req.two_hand_control_distance",
+        "Two-hand controls must be at least the safety distance Ds = 63 in/s × Ts from the "
+        "point of operation, Ts the stopping time measured at about 90° of crankshaft "
+        "rotation.",
+        "",
+        "(c)(3)(vii)",
+    ),
+    _c(
+        "req.additional_safeguarding",
+        "Where a two-hand control or a presence-sensing device safeguards a part-revolution "
+        "clutch press whose operator feeds or removes parts by placing hands in the point of "
+        "operation, the press must have a control system meeting (b)(13) and a brake monitor "
+        "meeting (b)(14).",
+        "",
+        "(c)(5)",
+        "recalled as (c)(5)(i)",
+    ),
+    _c(
+        "req.control_reliability",
+        "Control reliability: a failure within the control system must not prevent the "
+        "normal stopping action and must prevent the next stroke until the failure is "
+        "corrected.",
+        "",
+        "(b)(13)",
+    ),
+    _c(
+        "req.brake_monitoring",
+        "Brake monitoring: the brake monitor must detect deterioration of the braking "
+        "performance and prevent the next stroke when the stopping time or distance grows "
+        "beyond its setting.",
+        "",
+        "(b)(14)",
+    ),
+    _c(
+        "req.periodic_inspection",
+        "A programme of periodic and regular inspections of the press, its parts, auxiliary "
+        "equipment and safeguards must be followed, with a certification record of the "
+        "date, the inspector's signature and the press serial number.",
+        "",
+        "(e)(1)(i)",
+    ),
+    _c(
+        "req.weekly_inspection",
+        "The clutch/brake mechanism, the anti-repeat feature and the single-stroke mechanism "
+        "must be inspected and tested at least weekly, any maintenance done before the press "
+        "runs, and a certification record kept (date, signature, press serial number).",
+        "",
+        "(e)(1)(ii)",
+    ),
+    _c(
+        "req.weekly_exemption",
+        "Presses that meet (b)(13) and (b)(14) are exempt from the weekly inspection and "
+        "test; the periodic inspections still apply.",
+        "",
+        "(e)(1)(ii)",
+    ),
+    _c(
+        "req.psdi",
+        "Presence-sensing device initiation (PSDI) must meet paragraph (h): part-revolution "
+        "clutch presses only, control reliability and brake monitoring, and certification "
+        "and validation of the safety system by a third-party validation organization, "
+        "renewed yearly.",
+        "",
+        "(h)",
+        "sub-paragraphs of (h) not recalled one by one",
+    ),
+]
+
 # The table's printed bands, for showing the row used.
 TABLE_O10_LABELS = {i: f"{lo} to {hi} in" for i, (lo, hi, _mx) in enumerate(_O10, start=1)}
 TABLE_O10_MAX_LABELS = {i: f"{mx} in" for i, (_lo, _hi, mx) in enumerate(_O10, start=1)}
