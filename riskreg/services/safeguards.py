@@ -10,6 +10,7 @@ show the same working.
 from __future__ import annotations
 
 import datetime as dt
+import os
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -17,7 +18,7 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from riskreg.engineering import distance, pl, stopping, two_hand, us_distance
+from riskreg.engineering import distance, espe, interlock, pl, stopping, two_hand, us_distance
 from riskreg.engineering.derivation import InputError, Result
 from riskreg.engineering.units import MM_PER_IN
 from riskreg.model import (
@@ -37,6 +38,7 @@ from riskreg.model import (
 )
 from riskreg.vocab import MEASURE_KINDS
 
+from . import evidence
 from .errors import NotFound, ValidationError
 from .register import _commit, required_level
 
@@ -562,6 +564,44 @@ def evaluate(
                     f"{shown}, below the PLr {plr} of the hazards it guards "
                     "(ISO 13849-1 risk graph)."
                 )
+        if sg.kind == "light_curtain" and t_stop_s is not None:
+            lc = espe.evaluate_light_curtain(
+                int(p["espe_type"]),
+                float(p["resolution_mm"]),
+                required_pl_of(sg),
+                str(p.get("blanking") or "none"),
+                float(p.get("blanked_size_mm") or 0),
+                bool(p.get("muting")),
+                restart_interlock=bool(p.get("restart_interlock")),
+                person_can_stand_inside=bool(p.get("person_can_stand_inside")),
+                stopping_time_s=t_stop_s,
+                response_time_s=sg.response_time_s or 0.0,
+                installed_distance_mm=sg.installed_distance_mm,
+            )
+            ev.results.append(("Light curtain (IEC 61496 type, ISO 13855 resolution)", lc))
+            ev.problems.extend(x for x in lc.derivation.problems if "short" not in x.lower())
+        elif sg.kind == "light_curtain":
+            ev.problems.append(
+                "Record a stopping-time measurement to check the curtain's "
+                "distance and restart interlock."
+            )
+        if sg.kind in ("interlocking_guard", "interlocking_guard_locking"):
+            lock_check = t_stop_s is not None and sg.installed_distance_mm is not None
+            il = interlock.evaluate_interlock(
+                int(p["device_type"]),
+                p.get("coding"),
+                str(p["motivation_to_defeat"]),
+                list(p.get("measures_against_defeat") or []),
+                int(p.get("switches_in_series") or 1),
+                int(p.get("guards_in_series") or 1),
+                p.get("claimed_dc_percent"),
+                stopping_time_s=t_stop_s if lock_check else None,
+                response_time_s=(sg.response_time_s or 0.0) if lock_check else 0.0,
+                distance_mm=sg.installed_distance_mm if lock_check else None,
+                guard_locking=sg.kind == "interlocking_guard_locking",
+            )
+            ev.results.append(("Interlocking device (ISO 14119)", il))
+            ev.problems.extend(il.derivation.problems)
         if t_stop_s is not None and sg.kind in DISTANCE_KINDS:
             dr = _distance_result(sg, t_stop_s, method, profile)
             if dr is not None:
@@ -1079,12 +1119,59 @@ def add_action(session: Session, machine: Machine, data: Mapping[str, Any]) -> C
     return a
 
 
-def close_action(session: Session, action: CorrectiveAction, note: str) -> None:
-    note = (note or "").strip()
-    if not note:
-        raise ValidationError(
-            {"closing_note": "Say what was done to close the action, and where the evidence is."}
+def actions_of_site(session: Session, site_id: int) -> list[CorrectiveAction]:
+    """A site's corrective actions: open ones first (soonest due first), then closed."""
+    rows = list(
+        session.scalars(
+            select(CorrectiveAction)
+            .join(Machine, Machine.id == CorrectiveAction.machine_id)
+            .where(Machine.site_id == site_id)
         )
+    )
+    still_open = sorted(
+        (a for a in rows if a.status == "open"), key=lambda a: (a.due_on or dt.date.max, a.id)
+    )
+    closed = sorted((a for a in rows if a.status != "open"), key=lambda a: -a.id)
+    return still_open + closed
+
+
+def close_action(
+    session: Session,
+    action: CorrectiveAction,
+    note: str,
+    evidence_file: tuple[str, bytes] | None = None,
+    *,
+    instance_path: str | os.PathLike[str] | None = None,
+    user_id: int | None = None,
+) -> None:
+    """Close with a note; an optional file (name, content) is kept as the closing evidence.
+    The note and the file are both checked before anything is written."""
+    note = (note or "").strip()
+    errors: dict[str, str] = {}
+    if not note:
+        errors["closing_note"] = "Say what was done to close the action, and where the evidence is."
+    if evidence_file is not None:
+        try:
+            evidence.check_upload(
+                evidence_file[1], evidence_file[0], evidence.ALL_TYPES, "closing_file"
+            )
+        except ValidationError as exc:
+            errors.update(exc.errors)
+        if instance_path is None:
+            raise ValueError("instance_path is needed to store a closing file")
+    if errors:
+        raise ValidationError(errors)
+    if evidence_file is not None and instance_path is not None:
+        row = evidence.store(
+            session,
+            instance_path,
+            evidence_file[1],
+            evidence_file[0],
+            user_id=user_id,
+            field="closing_file",
+        )
+        session.flush()
+        action.closing_evidence_id = row.id
     action.status = "closed"
     action.closing_note = note[:5000]
     action.closed_at = dt.datetime.now(dt.UTC)

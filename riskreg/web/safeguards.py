@@ -264,10 +264,8 @@ def press(machine_id: int) -> Any:
 
 
 def _press_rules(m: Any, profile: Any) -> Any:
-    try:
-        from riskreg.engineering import press as press_rules
-    except ImportError:  # pragma: no cover - the module ships with the package
-        return None
+    from riskreg.engineering import press as press_rules
+
     kinds = sorted({s.kind for s in safeguards.safeguards_of(m) if s.status == "installed"})
     return press_rules.us_press_requirements(
         machine_kind=m.kind,
@@ -369,10 +367,8 @@ def components() -> Any:
 
 
 def _comparison(h: Any) -> Any:
-    try:
-        from riskreg.engineering import selection
-    except ImportError:  # pragma: no cover
-        return None
+    from riskreg.engineering import selection
+
     access = safeguards.hazard_access(db(), h)
     options = safeguards.options_of(db(), h)
     if not options:
