@@ -23,9 +23,16 @@ lint: $(STAMP)
 typecheck: $(STAMP)
 	$(BIN)/mypy
 
+# The suite on SQLite (with coverage), then again on PostgreSQL when
+# RISKREG_TEST_POSTGRES_URL names a server (.ci/run starts one). The browser tests
+# drive the demo on SQLite, so the PostgreSQL pass leaves them out.
 unit: $(STAMP)
 	$(BIN)/pytest --cov=riskreg --cov-report= $(PYTEST_ARGS)
 	$(BIN)/coverage report --include='riskreg/engineering/*' --fail-under=95 --show-missing
+	@if [ -n "$${RISKREG_TEST_POSTGRES_URL:-}" ]; then \
+	  echo "--- the suite again on PostgreSQL ---"; \
+	  $(BIN)/pytest -q -m "not browser" $(PYTEST_ARGS); \
+	fi
 
 # The browser tests (tests/browser) drive Debian's Chromium through the Node.js driver
 # bundled in Playwright's wheel (hence --only-binary above); no browser is downloaded.

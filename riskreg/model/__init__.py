@@ -67,6 +67,7 @@ class Site(Base):
     editions: Mapped[dict[str, Any]] = mapped_column(default=dict)
     stop_time_allowance_percent: Mapped[float] = mapped_column(Float, default=0.0)
     base_url: Mapped[str | None] = mapped_column(String(300))
+    allow_self_approval: Mapped[bool] = mapped_column(Boolean, default=False)
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
 
     areas: Mapped[list[Area]] = relationship(back_populates="site", order_by="Area.name")
@@ -151,6 +152,9 @@ class Assessment(Base):
     assessors: Mapped[str] = mapped_column(String(300), default="")
     approver_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
     approved_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
+    submitted_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
+    snapshot: Mapped[dict[str, Any] | None] = mapped_column(JSON)
+    change_reason: Mapped[str] = mapped_column(Text, default="")
     created_by_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id"))
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
 
@@ -176,6 +180,7 @@ class Task(Base):
     performed_by: Mapped[str] = mapped_column(String(200), default="")
     frequency: Mapped[str] = mapped_column(String(200), default="")
     archived: Mapped[bool] = mapped_column(Boolean, default=False)
+    origin_id: Mapped[int | None] = mapped_column(Integer)  # the task it was copied from
 
     assessment: Mapped[Assessment] = relationship(back_populates="tasks")
     hazards: Mapped[list[Hazard]] = relationship(back_populates="task")
@@ -213,6 +218,7 @@ class Hazard(Base):
     residual_accepted_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
     interim_measures: Mapped[str] = mapped_column(Text, default="")
     archived: Mapped[bool] = mapped_column(Boolean, default=False)
+    origin_id: Mapped[int | None] = mapped_column(Integer)  # the hazard it was copied from
     version: Mapped[int] = mapped_column(Integer, default=1)
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
 
@@ -273,6 +279,7 @@ class SafetyFunction(Base):
     modes: Mapped[str] = mapped_column(String(200), default="")  # run, setting, inch
     response_time_s: Mapped[float | None] = mapped_column(Float)
     archived: Mapped[bool] = mapped_column(Boolean, default=False)
+    origin_id: Mapped[int | None] = mapped_column(Integer)
 
     assessment: Mapped[Assessment] = relationship(back_populates="safety_functions")
     hazards: Mapped[list[Hazard]] = relationship(
@@ -295,6 +302,7 @@ class ProtectiveMeasure(Base):
     safety_function_id: Mapped[int | None] = mapped_column(ForeignKey("safety_function.id"))
     status: Mapped[str] = mapped_column(String(20), default="proposed")
     archived: Mapped[bool] = mapped_column(Boolean, default=False)
+    origin_id: Mapped[int | None] = mapped_column(Integer)
 
     assessment: Mapped[Assessment] = relationship(back_populates="measures")
     safety_function: Mapped[SafetyFunction | None] = relationship(back_populates="measures")
@@ -363,6 +371,7 @@ class Safeguard(Base):
     parameters: Mapped[dict[str, Any]] = mapped_column(default=dict)
     status: Mapped[str] = mapped_column(String(20), default="installed")
     trusted: Mapped[bool] = mapped_column(Boolean, default=True)
+    needs_revalidation: Mapped[bool] = mapped_column(Boolean, default=False)
     version: Mapped[int] = mapped_column(Integer, default=1)
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
 
@@ -656,3 +665,21 @@ class CalendarToken(Base):
     label: Mapped[str] = mapped_column(String(120), default="")
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
     revoked_at: Mapped[dt.datetime | None] = mapped_column(DateTime(timezone=True))
+
+
+class Modification(Base):
+    """Management of change: a modification to a machine that reopens its assessment."""
+
+    __tablename__ = "modification"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)
+    made_on: Mapped[dt.date] = mapped_column()
+    kind: Mapped[str] = mapped_column(String(40))  # die set, control change, guard moved, other
+    description: Mapped[str] = mapped_column(Text)
+    recorded_by: Mapped[str] = mapped_column(String(200), default="")
+    assessment_id: Mapped[int | None] = mapped_column(ForeignKey("assessment.id"))
+    safeguard_ids: Mapped[list[Any]] = mapped_column(default=list)
+    created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+
+    machine: Mapped[Machine] = relationship()

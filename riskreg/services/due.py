@@ -17,6 +17,7 @@ from riskreg.model import (
     Instrument,
     LockoutProcedure,
     Machine,
+    Modification,
     PressProfile,
     Safeguard,
     SafetyFunction,
@@ -173,8 +174,28 @@ def due_items(
                 .group_by(Verification.safeguard_id, Verification.kind)
             )
         }
+        modified: dict[int, dt.date] = {}
+        for made_on, sg_ids in session.execute(
+            select(Modification.made_on, Modification.safeguard_ids).where(
+                Modification.machine_id.in_(ids)
+            )
+        ):
+            for sid in sg_ids or []:
+                modified[sid] = max(modified.get(sid, made_on), made_on)
         for sg in guards:
             m = machines[sg.machine_id][0]
+            if sg.needs_revalidation:
+                since = modified.get(sg.id, today)
+                add(
+                    m,
+                    sg,
+                    "full_validation",
+                    last_pass.get((sg.id, "full_validation")),
+                    None,
+                    since,
+                    f"modified on {since}: validate the safety function again "
+                    "(ISO 13849-2) before relying on it",
+                )
             for k in ("functional_test", "inspection"):
                 every = interval(k, sg.id)
                 if every is None:

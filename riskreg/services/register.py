@@ -323,6 +323,13 @@ def update_assessment(session: Session, assessment: Assessment, data: Mapping[st
 
 
 def _editable(assessment: Assessment) -> None:
+    if assessment.status == "in_review":
+        raise ValidationError(
+            {
+                "assessment": f"Revision {assessment.revision} is in review: send it back to "
+                "draft to change it."
+            }
+        )
     if assessment.status in ("approved", "superseded"):
         raise ValidationError(
             {
@@ -363,14 +370,25 @@ def clone_machine(
     return machine
 
 
-def copy_assessment_content(session: Session, src: Assessment, dst: Assessment) -> None:
-    """Copy tasks, hazards with their current ratings, functions and measures."""
+def copy_assessment_content(
+    session: Session, src: Assessment, dst: Assessment, *, keep_origin: bool = False
+) -> None:
+    """Copy tasks, hazards with their current ratings, functions and measures.
+
+    With ``keep_origin`` (a new revision of the same machine) each copy remembers the
+    record it came from, so revisions can be compared.
+    """
+
+    def origin(x: Any) -> int | None:
+        return x.id if keep_origin else None
+
     tasks: dict[int, Task] = {}
     for t in src.tasks:
         if t.archived:
             continue
         tasks[t.id] = Task(
             assessment=dst,
+            origin_id=origin(t),
             phase=t.phase,
             description=t.description,
             performed_by=t.performed_by,
@@ -383,6 +401,7 @@ def copy_assessment_content(session: Session, src: Assessment, dst: Assessment) 
             continue
         nh = Hazard(
             assessment=dst,
+            origin_id=origin(h),
             task=tasks.get(h.task_id) if h.task_id else None,
             hazard_group=h.hazard_group,
             hazard_type=h.hazard_type,
@@ -417,6 +436,7 @@ def copy_assessment_content(session: Session, src: Assessment, dst: Assessment) 
             continue
         functions[f.id] = SafetyFunction(
             assessment=dst,
+            origin_id=origin(f),
             name=f.name,
             trigger=f.trigger,
             reaction=f.reaction,
@@ -431,6 +451,7 @@ def copy_assessment_content(session: Session, src: Assessment, dst: Assessment) 
         session.add(
             ProtectiveMeasure(
                 assessment=dst,
+                origin_id=origin(m),
                 step=m.step,
                 kind=m.kind,
                 description=m.description,

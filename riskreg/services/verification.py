@@ -259,6 +259,8 @@ def record_verification(
         action.verification_id = v.id
     elif safeguard is not None and not safeguard.trusted and _is_latest(session, safeguard, on):
         safeguard.trusted = True
+    if result != "fail" and kind == "full_validation" and safeguard is not None:
+        safeguard.needs_revalidation = False
     _commit(session)
     return v
 
@@ -486,6 +488,32 @@ def save_lockout(session: Session, machine: Machine, data: Mapping[str, Any]) ->
     session.add(row)
     _commit(session)
     return row
+
+
+def lockouts_of(session: Session, machine: Machine) -> list[LockoutProcedure]:
+    return list(
+        session.scalars(
+            select(LockoutProcedure)
+            .where(LockoutProcedure.machine_id == machine.id)
+            .order_by(LockoutProcedure.title, LockoutProcedure.id)
+        )
+    )
+
+
+def mark_lockout_inspected(
+    session: Session, procedure: LockoutProcedure, by: str, on: Any = None
+) -> None:
+    """Record the periodic inspection of a lockout procedure (today unless ``on``)."""
+    errors: dict[str, str] = {}
+    d = _date(on or dt.date.today(), "last_inspected_on", errors)
+    who = str(by or "").strip()[:200]
+    if not who:
+        errors["inspected_by"] = "Enter who inspected the procedure."
+    if errors:
+        raise ValidationError(errors)
+    procedure.last_inspected_on = d
+    procedure.inspected_by = who
+    _commit(session)
 
 
 # --- calendar tokens -----------------------------------------------------------------
