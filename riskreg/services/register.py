@@ -22,6 +22,7 @@ from riskreg.engineering.derivation import InputError
 from riskreg.model import (
     Area,
     Assessment,
+    AuditEntry,
     Hazard,
     Machine,
     ProtectiveMeasure,
@@ -60,14 +61,20 @@ def _text(data: Mapping[str, Any], key: str, limit: int = 2000) -> str:
     return "" if value is None else str(value).strip()[:limit]
 
 
-def _commit(session: Session) -> None:
+def _commit(session: Session, record: Machine | Hazard | None = None) -> None:
+    """Commit; a write that lost a race names the other's change when it can."""
     try:
         session.commit()
     except StaleDataError:
         session.rollback()
+        theirs = ""
+        if record is not None:
+            session.refresh(record)
+            theirs = _their_change(record)
         raise Conflict(
             "This record was changed by someone else since you opened it. "
-            "Reload it to see their change, then make yours again."
+            + theirs
+            + "Reload it to see their change, then make yours again."
         ) from None
 
 
@@ -84,8 +91,36 @@ def _check_version(obj: Machine | Hazard, expected: Any) -> None:
         raise Conflict(
             "This record was changed by someone else since you opened it "
             f"(your copy is version {wanted}, the register has version {obj.version}). "
-            "Reload it to see their change, then make yours again."
+            + _their_change(obj)
+            + "Reload it to see their change, then make yours again."
         )
+
+
+def _their_change(obj: Machine | Hazard) -> str:
+    """Who changed the record last and which fields, from the audit trail."""
+    session = Session.object_session(obj)
+    if session is None:
+        return ""
+    entry = session.scalar(
+        select(AuditEntry)
+        .where(
+            AuditEntry.entity == type(obj).__tablename__,
+            AuditEntry.entity_id == obj.id,
+            AuditEntry.action == "update",
+        )
+        .order_by(AuditEntry.id.desc())
+        .limit(1)
+    )
+    if entry is None or not entry.before or not entry.after:
+        return ""
+    changed = [
+        f"{k}: {entry.before.get(k)!r} → {entry.after.get(k)!r}"
+        for k in sorted(entry.after)
+        if k != "version" and entry.before.get(k) != entry.after.get(k)
+    ]
+    who = entry.user_email or "someone"
+    when = entry.at.strftime("%Y-%m-%d %H:%M") if entry.at else ""
+    return f"{who} changed it at {when} UTC: " + "; ".join(changed[:6]) + ". "
 
 
 # --- sites and areas -----------------------------------------------------------
@@ -266,7 +301,7 @@ def update_machine(
     values = _validate_machine(session, machine.site, data, machine)
     for key, value in values.items():
         setattr(machine, key, value)
-    _commit(session)
+    _commit(session, machine)
     return machine
 
 
@@ -774,7 +809,7 @@ def update_hazard(
             if current is not None:
                 current.superseded = True
             hazard.ratings.append(new_rating)
-    _commit(session)
+    _commit(session, hazard)
     return hazard
 
 

@@ -184,8 +184,10 @@ def test_stale_version_is_refused(session: Session, site) -> None:
     h = register.add_hazard(session, a, {"hazard_group": "mechanical", "event": "first"})
     old = h.version
     register.update_hazard(session, h, {"hazard_group": "mechanical", "event": "second"}, old)
-    with pytest.raises(Conflict, match="changed by someone else"):
+    with pytest.raises(Conflict, match="changed by someone else") as exc:
         register.update_hazard(session, h, {"hazard_group": "mechanical", "event": "third"}, old)
+    # the second writer is shown the other's change
+    assert "event: 'first' → 'second'" in str(exc.value)
 
 
 def test_archive_not_erase(session: Session, site) -> None:
