@@ -15,8 +15,8 @@ from pathlib import Path
 
 import pytest
 from sqlalchemy import Engine
-from webtools import PASSWORD, Seed
 from waitress.server import create_server
+from webtools import PASSWORD, Seed
 
 from riskreg.model import Hazard
 from riskreg.web import create_app
