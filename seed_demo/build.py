@@ -5,15 +5,24 @@ Every name, person, machine and number here is invented for the demo.
 
 from __future__ import annotations
 
+import datetime as dt
 from typing import Any
 
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from riskreg.model import Machine
-from riskreg.services import register, safeguards, users
+from riskreg.services import register, safeguards, users, verification
 from riskreg.services.audit import set_actor
 
 DEMO_PASSWORD = "demo-password-2026"
+
+
+def days_ago(n: int) -> dt.date:
+    """Demo dates are relative to the day the demo is built."""
+    return dt.date.today() - dt.timedelta(days=n)
+
+
 SITE = "Ostrander Vale Pressworks"
 
 PEOPLE = [
@@ -659,6 +668,7 @@ def build(session: Session) -> list[tuple[str, str]]:
         "No guard across the blade line; use SH-401 until the finger guard is fitted.",
     )
     build_safeguards(session, machines, people["assessor"].name)
+    build_verification_history(session, machines)
     return [(email, role) for email, _name, role in PEOPLE]
 
 
@@ -811,20 +821,27 @@ SAFEGUARDS: dict[str, list[dict[str, Any]]] = {
     ],
 }
 
-# tag → list of (date, trials in ms, position, instrument)
-MEASUREMENTS: dict[str, list[tuple[str, str, str]]] = {
+# tag → list of (days before today, trials in ms, position)
+MEASUREMENTS: dict[str, list[tuple[int, str, str]]] = {
     "PR-101": [
-        ("2025-12-04", "170, 175, 178", "90° of crank rotation"),
-        ("2026-06-10", "180, 183, 185", "90° of crank rotation"),
-        ("2026-11-18", "240, 246, 251", "90° of crank rotation"),
+        (362, "170, 175, 178", "90° of crank rotation"),
+        (174, "180, 183, 185", "90° of crank rotation"),
+        (13, "240, 246, 251", "90° of crank rotation"),
     ],
-    "PR-102": [("2026-09-02", "150, 152, 158", "90° of crank rotation")],
-    "PR-103": [("2026-10-14", "180, 184, 186", "90° of crank rotation")],
-    "PR-104": [("2026-08-21", "210, 214, 212", "90° of crank rotation")],
-    "HP-201": [("2026-07-30", "120, 126, 131", "ram at mid-stroke")],
-    "PB-301": [("2026-05-12", "95, 98, 101", "closing speed")],
-    "RC-501": [("2026-03-03", "310, 318, 322", "robot at full speed, axis 1")],
+    "PR-102": [(90, "150, 152, 158", "90° of crank rotation")],
+    "PR-103": [(48, "180, 184, 186", "90° of crank rotation")],
+    "PR-104": [(102, "210, 214, 212", "90° of crank rotation")],
+    "HP-201": [(124, "120, 126, 131", "ram at mid-stroke")],
+    "PB-301": [(203, "95, 98, 101", "closing speed")],
+    "RC-501": [(273, "310, 318, 322", "robot at full speed, axis 1")],
 }
+# The site's measuring instruments: name, serial, last calibrated (days ago), interval.
+# ST-2, used for the measurements, is due for calibration within 30 days; the spare
+# ST-1 is overdue.
+INSTRUMENTS = [
+    ("Stop-time meter ST-2", "STM2-0417", 345, 365),
+    ("Stop-time meter ST-1 (spare)", "STM1-0112", 400, 365),
+]
 
 
 def build_safeguards(session: Session, machines: dict[str, Machine], assessor: str) -> None:
@@ -853,14 +870,14 @@ def build_safeguards(session: Session, machines: dict[str, Machine], assessor: s
             "single_stroke": "y",
         },
     )
-    for on, ms, note in (
-        ("2024-02-01", "220", "commissioning"),
-        ("2026-06-10", "260", "raised after brake relining"),
+    for ago, ms, note in (
+        (1034, "220", "commissioning"),
+        (174, "260", "raised after brake relining"),
     ):
         safeguards.add_monitor_setting(
             session,
             machines["PR-101"],
-            {"set_on": on, "setpoint_ms": ms, "set_by": assessor, "note": note},
+            {"set_on": days_ago(ago), "setpoint_ms": ms, "set_by": assessor, "note": note},
         )
     safeguards.save_press_profile(
         session,
@@ -885,8 +902,23 @@ def build_safeguards(session: Session, machines: dict[str, Machine], assessor: s
                 "single_stroke": "y",
             },
         )
+    site = machines["PR-101"].site
+    meters = [
+        verification.save_instrument(
+            session,
+            site,
+            {
+                "name": name,
+                "serial": serial,
+                "calibrated_on": days_ago(ago),
+                "calibration_interval_days": every,
+            },
+        )
+        for name, serial, ago, every in INSTRUMENTS
+    ]
     for tag, rows in MEASUREMENTS.items():
-        for on, trials, position in rows:
+        for ago, trials, position in rows:
+            on = days_ago(ago)
             safeguards.record_measurement(
                 session,
                 machines[tag],
@@ -894,7 +926,11 @@ def build_safeguards(session: Session, machines: dict[str, Machine], assessor: s
                     "measured_on": on,
                     "trials_ms": trials,
                     "position": position,
-                    "instrument": "Stop-time meter ST-2 (demo)",
+                    "instrument": "Stop-time meter ST-2",
+                    # the meter's current calibration covers the later measurements only
+                    "instrument_id": meters[0].id
+                    if verification.in_calibration(meters[0], on)
+                    else None,
                     "measured_by": assessor,
                 },
             )
@@ -977,3 +1013,263 @@ def build_safeguards(session: Session, machines: dict[str, Machine], assessor: s
         "slugs, which a two-hand control would not.",
         assessor,
     )
+
+
+# --- a year of verification history -------------------------------------------------------
+
+FITTER = "Jonas Brekke-Lowe"  # maintenance fitter (invented)
+INSPECTOR = "Marit Quennell-Sand"  # maintenance lead who certifies press inspections
+OPERATORS = ("Aino Varga-Pell", "Kofi Lindqvist-Ames", "Sunniva Ortega-Rahm")
+NOON = dt.time(12, 0)
+
+# (tag, safeguard label) → list of (kind, days ago, result, notes, measured values)
+History = list[tuple[str, int, str, str, str]]
+CURTAIN_TEST = "14 mm test rod at the top, middle and bottom of the field: stop each time"
+TWO_HAND_TEST = "Releasing either button stops the slide; one hand alone starts nothing"
+GUARD_TEST = "Door opened at mid-stroke: the ram stops before the opening is 10 mm wide"
+LOCK_TEST = "Door stays locked while the robot moves; unlocks only at standstill"
+
+
+def _regular(kind: str, days: list[int], values: str) -> History:
+    return [(kind, d, "pass", "", values) for d in days]
+
+
+VERIFICATIONS: dict[tuple[str, str], History] = {
+    ("PR-101", "Front light curtain"): _regular(
+        "functional_test", [355, 265, 175, 80], CURTAIN_TEST
+    )
+    + [("inspection", 300, "pass", "Mounting, cabling and mirror clean and tight", "")],
+    ("PR-102", "Push-button pair at each operator"): _regular(
+        "functional_test", [370, 280, 190, 100], TWO_HAND_TEST
+    )
+    + [
+        (
+            "inspection",
+            340,
+            "remarks",
+            "Button shrouds worn at station 2; replace them at the next die change.",
+            "",
+        )
+    ],
+    ("PR-103", "Two-hand control station with anti-tie-down"): _regular(
+        "functional_test", [340, 250, 160, 70], TWO_HAND_TEST + "; a tied-down button is refused"
+    )
+    + [("inspection", 200, "pass", "Station bolted down; spacing 600 mm as recorded", "")],
+    ("PR-104", "Two-hand trip station"): _regular(
+        "functional_test", [350, 260, 170, 86], TWO_HAND_TEST
+    )
+    + [("inspection", 380, "pass", "Trip station and cabling in order", "")],
+    ("HP-201", "Front sliding door interlock"): _regular(
+        "functional_test", [360, 270, 180, 95], GUARD_TEST
+    )
+    + [
+        ("inspection", 150, "pass", "Coded actuator and switch fixed with one-way screws", ""),
+        (
+            "functional_test",
+            3,
+            "fail",
+            "The door opened 80 mm with the ram still moving: the actuator is loose on its "
+            "bracket and the switch no longer sees the first part of the travel. Press "
+            "stopped; fitter called.",
+            "Door gap at the moment of detection: about 80 mm",
+        ),
+    ],
+    ("PB-301", "Tool-front light curtain"): _regular("functional_test", [330, 240], CURTAIN_TEST)
+    + [
+        (
+            "functional_test",
+            150,
+            "fail",
+            "Beam 7 did not stop the ram: receiver lens dirty and its connector loose.",
+            "Test rod not detected in the lower third of the field",
+        ),
+        ("functional_test", 146, "pass", "Re-test after the repair", CURTAIN_TEST),
+        ("functional_test", 60, "pass", "", CURTAIN_TEST),
+        ("inspection", 100, "pass", "Curtain brackets and cabling in order", ""),
+    ],
+    ("RC-501", "Turntable light curtain"): _regular(
+        "functional_test", [300, 210, 120, 30], "30 mm test rod across the field: stop each time"
+    )
+    + [("inspection", 250, "pass", "", "")],
+    ("RC-501", "Cell door with guard locking"): _regular(
+        "functional_test", [310, 220, 130, 40], LOCK_TEST
+    )
+    + [("inspection", 355, "pass", "Lock and actuator tight; escape release works", "")],
+}
+PB301_CLOSING = (
+    "Lens cleaned, connector replaced and tightened; the functional test passed four days "
+    "after the failure (see that verification)."
+)
+# Weekly press inspections (29 CFR 1910.217(e)(1)(ii)) on the presses not exempt.
+# PR-102's last one is 11 days old (overdue); PR-104 had a four-week gap in the summer.
+WEEKLY = {"PR-102": (range(361, 10, -7), ()), "PR-104": (range(360, 2, -7), range(150, 181))}
+WEEKLY_VALUES = (
+    "Clutch/brake: stops within its setting; anti-repeat holds; single stroke per actuation"
+)
+
+CHECKLIST_CURTAIN = [
+    "Light curtain: the test rod stops the slide at the top, middle and bottom",
+    "Fixed side guards in place and fastened",
+    "Single stroke: one stroke per actuation",
+    "Emergency stop stops the press",
+]
+CHECKLIST_TWO_HAND = [
+    "Two-hand control: releasing either button stops the slide",
+    "Both buttons are needed to start a stroke",
+    "Guards in place and fastened",
+    "Emergency stop stops the press",
+]
+# tag → (items, shifts per day, shifts not checked as (working day, shift), failed
+# checks as (working day, index of the item not passed, note)); working days count
+# back from the last one before today (1) so that the week-end never hides them.
+SHIFT_CHECKS: dict[str, tuple[list[str], int, set[tuple[int, int]], list[tuple[int, int, str]]]] = {
+    "PR-101": (CHECKLIST_CURTAIN, 2, {(6, 2)}, []),
+    "PR-102": (CHECKLIST_TWO_HAND, 1, {(9, 1), (10, 1)}, []),
+    "PR-103": (
+        CHECKLIST_TWO_HAND,
+        1,
+        set(),
+        [(8, 2, "Left guard fixing screw missing; press not started until it was fitted.")],
+    ),
+    "PR-104": (CHECKLIST_TWO_HAND, 1, set(), []),
+}
+SHIFT_WINDOW = 28
+
+# tag → (procedure, last inspected days ago, interval)
+LOCKOUTS = [
+    ("PR-101", "Die change: main isolator off and locked, air dumped, safety blocks in", 200),
+    ("PR-102", "Clutch and brake work: isolate, lock, release the flywheel energy", 380),
+    ("HP-201", "Tool change: pump isolated, ram blocked, accumulator bled", 340),
+    ("SH-401", "Blade change: isolator locked, blade beam lowered onto blocks", 90),
+    ("RC-501", "Entering the cell: robot controller and air isolated and locked", 120),
+]
+
+
+def build_verification_history(session: Session, machines: dict[str, Machine]) -> None:
+    """Verifications, weekly press inspections, start-of-shift checks and lockout
+    procedures over the last year, dated back from today."""
+    from riskreg.model import CorrectiveAction, Safeguard
+
+    tag_of = {m.id: t for t, m in machines.items()}
+    guards = {
+        (tag_of[sg.machine_id], sg.label): sg
+        for sg in session.scalars(select(Safeguard))
+        if sg.machine_id in tag_of
+    }
+    records: list[tuple[int, Machine, dict[str, Any]]] = []
+    for (tag, label), rows in VERIFICATIONS.items():
+        sg = guards[(tag, label)]
+        for kind, ago, result, notes, values in rows:
+            records.append(
+                (
+                    ago,
+                    machines[tag],
+                    {
+                        "kind": kind,
+                        "safeguard_id": sg.id,
+                        "performed_on": days_ago(ago),
+                        "performed_by": FITTER,
+                        "result": result,
+                        "notes": notes,
+                        "measured_values": values,
+                    },
+                )
+            )
+    for tag, (days, gap) in WEEKLY.items():
+        m = machines[tag]
+        for ago in days:
+            if ago in gap:
+                continue
+            records.append(
+                (
+                    ago,
+                    m,
+                    {
+                        "kind": "weekly_press",
+                        "performed_on": days_ago(ago),
+                        "performed_by": FITTER,
+                        "result": "pass",
+                        "measured_values": WEEKLY_VALUES,
+                        "press_serial": m.serial,
+                        "signature": INSPECTOR,
+                    },
+                )
+            )
+    # oldest first, so that trust follows the order of events
+    for _ago, m, data in sorted(records, key=lambda r: -r[0]):
+        # no files in the demo's records, so nothing is written under instance_path
+        verification.record_verification(session, m, data, instance_path="instance")
+    pb301 = guards[("PB-301", "Tool-front light curtain")]
+    for action in session.scalars(
+        select(CorrectiveAction).where(
+            CorrectiveAction.safeguard_id == pb301.id, CorrectiveAction.status == "open"
+        )
+    ):
+        safeguards.close_action(session, action, PB301_CLOSING)
+        # the demo's history: due a week after the failure, closed at the re-test
+        failed_on = days_ago(150)
+        action.due_on = failed_on + dt.timedelta(days=7)
+        action.closed_at = dt.datetime.combine(failed_on + dt.timedelta(days=4), NOON, dt.UTC)
+    session.commit()
+
+    failed_days: list[dt.date] = []
+    for tag, (items, shifts, skipped, failed) in SHIFT_CHECKS.items():
+        m = machines[tag]
+        verification.save_checklist(
+            session,
+            m,
+            {
+                "items": items,
+                "shifts_per_day": shifts,
+                "working_days": "12345",
+                "active_since": days_ago(SHIFT_WINDOW),
+            },
+        )
+        fails = {n: (i, note) for n, i, note in failed}
+        workdays = [d for d in map(days_ago, range(1, SHIFT_WINDOW + 1)) if d.isoweekday() <= 5]
+        for n, day in sorted(enumerate(workdays, start=1), key=lambda x: x[1]):
+            for shift in range(1, shifts + 1):
+                if (n, shift) in skipped:
+                    continue
+                ok = list(items)
+                note = ""
+                if n in fails:
+                    ok.pop(fails[n][0])
+                    note = fails[n][1]
+                    failed_days.append(day)
+                verification.record_shift_check(
+                    session,
+                    m,
+                    {
+                        "shift_date": day,
+                        "shift": shift,
+                        "performed_by": OPERATORS[(n + shift) % len(OPERATORS)],
+                        "ok_items": ok,
+                        "notes": note,
+                    },
+                )
+    for action in session.scalars(
+        select(CorrectiveAction).where(
+            CorrectiveAction.source == "shift check", CorrectiveAction.status == "open"
+        )
+    ):
+        safeguards.close_action(
+            session, action, "Screw fitted by maintenance during the same shift."
+        )
+        day = next((d for d in failed_days if str(d) in action.title), None)
+        if day is not None:
+            action.due_on = day + dt.timedelta(days=1)
+            action.closed_at = dt.datetime.combine(day, NOON, dt.UTC)
+    session.commit()
+
+    for tag, title, ago in LOCKOUTS:
+        verification.save_lockout(
+            session,
+            machines[tag],
+            {
+                "title": title,
+                "last_inspected_on": days_ago(ago),
+                "interval_days": 365,
+                "inspected_by": INSPECTOR,
+            },
+        )

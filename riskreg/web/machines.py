@@ -98,6 +98,8 @@ def machine(machine_id: int) -> Any:
         for s in safeguards.safeguards_of(m)
     ]
     actions = safeguards.actions_of(db(), m)
+    from .trust import machine_context
+
     return render_template(
         "machine.html",
         machine=m,
@@ -115,6 +117,7 @@ def machine(machine_id: int) -> Any:
         actions=actions,
         profile=profile,
         title=f"{m.asset_tag} {m.name}",
+        **machine_context(m),
     )
 
 

@@ -4,6 +4,7 @@ and answer each bad value with a message that says what to enter."""
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
+from flask_wtf.file import FileField
 from wtforms import BooleanField, SelectField, StringField, TextAreaField
 from wtforms.validators import Length
 
@@ -171,7 +172,10 @@ class MeasurementForm(FlaskForm):  # type: ignore[misc]
         validators=[Length(max=200)],
         render_kw={"placeholder": "e.g. 90° of crank rotation"},
     )
-    instrument = StringField("Instrument", validators=[Length(max=200)])
+    instrument_id = SelectField(
+        "Instrument (from the site's list)", validate_choice=False, coerce=str
+    )
+    instrument = StringField("Instrument not in the list", validators=[Length(max=200)])
     measured_by = StringField("Measured by", validators=[Length(max=200)])
     allowance_percent = num("Allowance for brake wear (%; empty: the site's)")
     brake_monitor_limit_ms = num("Brake-monitor limit (ms), if it lets the press run longer")
@@ -297,4 +301,8 @@ class ActionForm(FlaskForm):  # type: ignore[misc]
 class CloseActionForm(FlaskForm):  # type: ignore[misc]
     closing_note = TextAreaField(
         "What was done, and where the evidence is", validators=[Length(max=5000)]
+    )
+    closing_file = FileField(
+        "Evidence of the fix (photo, PDF or CSV; optional)",
+        render_kw={"accept": "image/*,application/pdf,text/csv"},
     )

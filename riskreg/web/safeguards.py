@@ -5,11 +5,12 @@ from __future__ import annotations
 
 from typing import Any
 
-from flask import Blueprint, flash, redirect, render_template, request, url_for
+from flask import Blueprint, current_app, flash, redirect, render_template, request, url_for
 from flask_login import current_user
 
 from riskreg.model import (
     CorrectiveAction,
+    Instrument,
     SafeguardOption,
     SafetyFunction,
     StoppingTimeMeasurement,
@@ -165,6 +166,8 @@ def safeguard(safeguard_id: int) -> Any:
             .order_by(DistanceCheck.id.desc())
         )
     )
+    from .trust import safeguard_context
+
     return render_template(
         "safeguard.html",
         sg=sg,
@@ -174,6 +177,7 @@ def safeguard(safeguard_id: int) -> Any:
         checks=checks,
         kinds=safeguards.SAFEGUARD_KINDS,
         title=f"{sg.label} · {m.asset_tag}",
+        **safeguard_context(sg),
     )
 
 
@@ -185,6 +189,9 @@ def safeguard(safeguard_id: int) -> Any:
 def new_measurement(machine_id: int) -> Any:
     m = get_machine(machine_id)
     form = MeasurementForm()
+    from .trust import instrument_choices
+
+    form.instrument_id.choices = instrument_choices(m.site)
     if request.method == "GET":
         form.measured_by.data = current_user.name
     if form.validate_on_submit():
@@ -222,6 +229,10 @@ def measurement(measurement_id: int) -> Any:
         "measurement.html",
         meas=meas,
         machine=meas.machine,
+        instrument_warning=safeguards.instrument_warning(db(), meas),
+        instrument=_get(Instrument, meas.instrument_id, "instrument")
+        if meas.instrument_id
+        else None,
         title=f"Stopping time {meas.measured_on} · {meas.machine.asset_tag}",
     )
 
@@ -507,8 +518,21 @@ def close_action(action_id: int) -> Any:
     a = _get(CorrectiveAction, action_id, "corrective action")
     form = CloseActionForm()
     if form.validate_on_submit():
+        storage = form.closing_file.data
+        upload = (
+            (storage.filename, storage.read())
+            if storage is not None and getattr(storage, "filename", "")
+            else None
+        )
         try:
-            safeguards.close_action(db(), a, form.closing_note.data)
+            safeguards.close_action(
+                db(),
+                a,
+                form.closing_note.data,
+                upload,
+                instance_path=current_app.instance_path,
+                user_id=current_user.id,
+            )
             flash("Action closed.")
             return redirect(url_for("machines.machine", machine_id=a.machine_id, _anchor="actions"))
         except ValidationError as exc:

@@ -8,7 +8,7 @@ from flask import Blueprint, redirect, render_template, request, url_for
 from sqlalchemy import select
 
 from riskreg.model import Site
-from riskreg.services import register
+from riskreg.services import due, register
 from riskreg.services.errors import NotFound
 
 from . import db
@@ -39,5 +39,12 @@ def site(site_id: int) -> Any:
     for r in rows:
         areas.setdefault(r.area_name or "No area", []).append(r)
     return render_template(
-        "overview.html", site=s, sites=all_sites(), areas=areas, q=q, total=len(rows), title=s.name
+        "overview.html",
+        site=s,
+        sites=all_sites(),
+        areas=areas,
+        q=q,
+        total=len(rows),
+        due_counts=due.counts(due.due_items(db(), s)),
+        title=s.name,
     )

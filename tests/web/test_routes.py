@@ -4,26 +4,44 @@ fails ``test_every_route_has_a_row``."""
 
 from __future__ import annotations
 
+import datetime as dt
 from collections.abc import Callable
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 from urllib.parse import parse_qs, urlsplit
 
 import pytest
 from flask import Flask
 from flask.testing import FlaskClient
-from sqlalchemy import func, select
+from sqlalchemy import Engine, func, select
+from trustseed import CHECKLIST, TrustSeed, add_trust_records
 from webtools import NAMES, PASSWORD, ROLES, Seed, Store, csrf_token
 
 from riskreg.model import (
     Assessment,
+    BrakeMonitorSetting,
+    CalendarToken,
+    Component,
+    CorrectiveAction,
     Hazard,
+    Instrument,
+    LockoutProcedure,
     Machine,
+    PressProfile,
     ProtectiveMeasure,
     RiskRating,
+    Safeguard,
+    SafeguardOption,
     SafetyFunction,
+    SafetyFunctionPart,
+    ShiftCheck,
+    ShiftChecklist,
+    StoppingTimeMeasurement,
     Task,
     User,
+    Verification,
+    VerificationInterval,
 )
 from riskreg.services import library
 from riskreg.vocab import ROLE_RANK
@@ -39,16 +57,25 @@ class Row:
     access: "public" (no login), "read" (any logged-in role), "write" (``role``
     or above), "session" (any logged-in role; log out).
     For a write route: ``data`` is a valid form, ``probe`` reads the stored state
-    it changes and ``want`` gives the state after the write from the state before.
+    it changes and ``want`` gives the state after the write from the state before;
+    ``open_get`` when its GET is a page every role may read (only the POST needs
+    ``role``).
     """
 
     access: str
-    url: Callable[[Seed], str]
+    url: Callable[[Any], str]
     methods: tuple[str, ...] = ("GET",)
     role: str | None = None
     data: Data | None = None
     probe: Probe | None = None
     want: Callable[[Any], Any] | None = None
+    open_get: bool = False
+
+
+@pytest.fixture
+def seed(seed: Seed, engine: Engine, instance_dir: Path) -> TrustSeed:
+    """The register plus the records the safeguard and verification routes need."""
+    return add_trust_records(engine, seed, instance_dir)
 
 
 def _machine_form(store: Store, seed: Seed, **over: Any) -> dict[str, Any]:
@@ -111,6 +138,20 @@ def _assessment_scope(store: Store, seed: Seed) -> str:
 
 def _residual_accepted(store: Store, seed: Seed) -> bool:
     return store.hazard(seed.hazard_id, "residual_accepted_by_id") is not None
+
+
+def _where(model: type[Any], *conds: Any) -> Probe:
+    return lambda store, seed: store.count(model, *conds)
+
+
+def _checklist_items(store: Store, seed: Seed) -> list[str]:
+    with store.session() as s:
+        row = s.scalar(select(ShiftChecklist).where(ShiftChecklist.machine_id == seed.machine_id))
+        return list(row.items) if row else []
+
+
+TODAY = dt.date.today().isoformat()
+GP = ("GET", "POST")
 
 
 ROUTES: dict[str, Row] = {
@@ -266,6 +307,256 @@ ROUTES: dict[str, Row] = {
         _residual_accepted,
         _becomes(True),
     ),
+    # --- safeguard pages ---
+    "safeguards.new_safeguard": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/safeguards/new?kind=fixed_guard",
+        GP,
+        "assessor",
+        lambda st, s: {
+            "label": "Rear fence",
+            "status": "installed",
+            "opening_mm": "20",
+            "opening_distance_mm": "200",
+        },
+        _count(Safeguard),
+        _plus(1),
+    ),
+    "safeguards.edit_safeguard": Row(
+        "write",
+        lambda s: f"/safeguards/{s.safeguard_id}/edit",
+        GP,
+        "assessor",
+        lambda st, s: {
+            "label": "Front curtain, line A",
+            "status": "installed",
+            "response_time_ms": "20",
+            "installed_distance_mm": "600",
+            "espe_type": "4",
+            "resolution_mm": "14",
+            "blanking": "none",
+        },
+        lambda st, s: st.value(Safeguard, s.safeguard_id, "label"),
+        _becomes("Front curtain, line A"),
+    ),
+    "safeguards.safeguard": Row("read", lambda s: f"/safeguards/{s.safeguard_id}"),
+    "safeguards.new_measurement": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/measurements/new",
+        GP,
+        "assessor",
+        lambda st, s: {
+            "measured_on": TODAY,
+            "trials_ms": "170, 175, 172",
+            "allowance_percent": "0",
+            "instrument_id": str(s.instrument_id),
+        },
+        _count(StoppingTimeMeasurement),
+        _plus(1),
+    ),
+    "safeguards.measurement": Row("read", lambda s: f"/measurements/{s.measurement_id}"),
+    "safeguards.press": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/press",
+        GP,
+        "assessor",
+        lambda st, s: {"clutch": "full", "engaging_points": "2", "revolution_time_ms": "500"},
+        _where(PressProfile, PressProfile.clutch == "full"),
+        _plus(1),
+    ),
+    "safeguards.monitor_setting": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/press/monitor",
+        ("POST",),
+        "assessor",
+        lambda st, s: {"bm-set_on": TODAY, "bm-setpoint_ms": "250", "bm-set_by": "A. Fieldwork"},
+        _count(BrakeMonitorSetting),
+        _plus(1),
+    ),
+    "safeguards.function": Row(
+        "write",
+        lambda s: f"/functions/{s.function_id}",
+        GP,
+        "assessor",
+        lambda st, s: {"role": "input", "name": "Light curtain", "given_pl": "e"},
+        _count(SafetyFunctionPart),
+        _plus(1),
+        open_get=True,
+    ),
+    "safeguards.components": Row(
+        "write",
+        lambda s: "/components",
+        GP,
+        "assessor",
+        lambda st, s: {
+            "maker": "Example Maker",
+            "model": "R-1",
+            "kind": "safety relay",
+            "document": "data sheet rev. 1",
+        },
+        _count(Component),
+        _plus(1),
+        open_get=True,
+    ),
+    "safeguards.options": Row(
+        "write",
+        lambda s: f"/hazards/{s.hazard_id}/options",
+        GP,
+        "assessor",
+        lambda st, s: {"which": "option", "op-kind": "fixed_guard", "op-cost": "1200"},
+        _count(SafeguardOption),
+        _plus(1),
+        open_get=True,
+    ),
+    "safeguards.choose": Row(
+        "write",
+        lambda s: f"/options/{s.option_id}/choose",
+        ("POST",),
+        "assessor",
+        lambda st, s: {"ch-reason": "Blanks are fed by hand at every stroke"},
+        lambda st, s: st.value(SafeguardOption, s.option_id, "chosen"),
+        _becomes(True),
+    ),
+    "safeguards.new_action": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/actions/new",
+        GP,
+        "assessor",
+        lambda st, s: {"title": "Replace the worn shroud", "owner": "Maintenance"},
+        _count(CorrectiveAction),
+        _plus(1),
+    ),
+    "safeguards.close_action": Row(
+        "write",
+        lambda s: f"/actions/{s.action_id}/close",
+        GP,
+        "assessor",
+        lambda st, s: {"closing_note": "Rear guard refitted and checked"},
+        lambda st, s: st.value(CorrectiveAction, s.action_id, "status"),
+        _becomes("closed"),
+    ),
+    # --- keeping safeguards trusted ---
+    "trust.new_verification": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/verifications/new",
+        GP,
+        "assessor",
+        lambda st, s: {
+            "safeguard_id": str(s.safeguard_id),
+            "kind": "inspection",
+            "result": "pass",
+            "performed_on": TODAY,
+            "performed_by": "Maintenance",
+        },
+        _count(Verification),
+        _plus(1),
+    ),
+    "trust.verification": Row("read", lambda s: f"/verifications/{s.verification_id}"),
+    "trust.due_board": Row("read", lambda s: f"/sites/{s.site_id}/due"),
+    "trust.instruments": Row("read", lambda s: f"/sites/{s.site_id}/instruments"),
+    "trust.new_instrument": Row(
+        "write",
+        lambda s: f"/sites/{s.site_id}/instruments/new",
+        GP,
+        "assessor",
+        lambda st, s: {"name": "Stop-time meter B", "calibration_interval_days": "365"},
+        _count(Instrument),
+        _plus(1),
+    ),
+    "trust.calibrate": Row(
+        "write",
+        lambda s: f"/instruments/{s.instrument_id}/calibrate",
+        GP,
+        "assessor",
+        lambda st, s: {"calibrated_on": TODAY},
+        lambda st, s: st.value(Instrument, s.instrument_id, "calibrated_on"),
+        _becomes(dt.date.today()),
+    ),
+    "trust.intervals": Row(
+        "write",
+        lambda s: f"/sites/{s.site_id}/intervals",
+        GP,
+        "approver",
+        lambda st, s: {"kind": "functional_test", "days": "60"},
+        _where(
+            VerificationInterval,
+            VerificationInterval.safeguard_id.is_(None),
+            VerificationInterval.kind == "functional_test",
+            VerificationInterval.days == 60,
+        ),
+        _plus(1),
+        open_get=True,
+    ),
+    "trust.safeguard_interval": Row(
+        "write",
+        lambda s: f"/safeguards/{s.safeguard_id}/intervals",
+        ("POST",),
+        "assessor",
+        lambda st, s: {"iv-kind": "inspection", "iv-days": "180"},
+        _where(VerificationInterval, VerificationInterval.days == 180),
+        _plus(1),
+    ),
+    "trust.actions": Row("read", lambda s: f"/sites/{s.site_id}/actions"),
+    "trust.new_lockout": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/lockout/new",
+        GP,
+        "assessor",
+        lambda st, s: {"title": "Lock-out for cleaning", "interval_days": "365"},
+        _count(LockoutProcedure),
+        _plus(1),
+    ),
+    "trust.lockout_inspected": Row(
+        "write",
+        lambda s: f"/lockout/{s.lockout_id}/inspected",
+        ("POST",),
+        "assessor",
+        lambda st, s: {},
+        lambda st, s: st.value(LockoutProcedure, s.lockout_id, "last_inspected_on"),
+        _becomes(dt.date.today()),
+    ),
+    "trust.checklist": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/shift-checklist",
+        GP,
+        "assessor",
+        lambda st, s: {"items": "Guards fastened\nTwo-hand control works", "shifts_per_day": "1"},
+        _checklist_items,
+        _becomes(["Guards fastened", "Two-hand control works"]),
+    ),
+    "trust.shift_check": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/shift-check",
+        GP,
+        "assessor",
+        lambda st, s: {
+            "shift_date": TODAY,
+            "shift": "1",
+            "performed_by": "Operator",
+            "ok_items": CHECKLIST,
+        },
+        _count(ShiftCheck),
+        _plus(1),
+    ),
+    "trust.calendar_links": Row(
+        "write",
+        lambda s: f"/sites/{s.site_id}/calendar",
+        GP,
+        "admin",
+        lambda st, s: {"label": "second planner"},
+        _count(CalendarToken),
+        _plus(1),
+    ),
+    "trust.revoke_calendar_link": Row(
+        "write",
+        lambda s: f"/calendar-links/{s.token_id}/revoke",
+        ("POST",),
+        "admin",
+        lambda st, s: {},
+        lambda st, s: st.value(CalendarToken, s.token_id, "revoked_at") is not None,
+        _becomes(True),
+    ),
+    "trust.calendar_feed": Row("public", lambda s: f"/calendar/{s.token}.ics"),
     "hazards.archive": Row(
         "write",
         lambda s: f"/hazards/{s.hazard_id}/archive",
@@ -389,7 +680,7 @@ def test_write_permissions(
     allowed = _allowed(role, row.role)
     if "GET" in row.methods:
         page = client.get(url)
-        assert page.status_code == (200 if allowed else 403)
+        assert page.status_code == (200 if allowed or row.open_get else 403)
         assert row.probe(store, seed) == before, "a GET changed the register"
     resp = client.post(url, data=row.data(store, seed))
     after = row.probe(store, seed)
