@@ -4,6 +4,7 @@ PostgreSQL server named by RISKREG_TEST_POSTGRES_URL."""
 from __future__ import annotations
 
 import os
+import shutil
 import uuid
 from collections.abc import Iterator
 from pathlib import Path
@@ -49,11 +50,20 @@ TEMPLATE = "riskreg_template_head"
 
 
 @pytest.fixture(scope="session")
-def _pg_template() -> Iterator[str | None]:
-    """On PostgreSQL, migrate once into a template; each test copies it (much faster)."""
+def _pg_template(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str | None]:
+    """Migrate once into a template; each test copies it (much faster than migrating).
+
+    On SQLite the template is a file; on PostgreSQL a template database.
+    """
     pg = _postgres_url()
     if pg is None:
-        yield None
+        path = tmp_path_factory.mktemp("template") / "head.sqlite"
+        eng = make_engine(f"sqlite:///{path}")
+        migrate.upgrade(eng)
+        with eng.connect() as conn:
+            conn.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
+        eng.dispose()
+        yield str(path)
         return
     admin = make_engine(pg, isolation_level="AUTOCOMMIT")
     with admin.connect() as conn:
@@ -76,8 +86,10 @@ def engine(tmp_path: Path, _pg_template: str | None) -> Iterator[Engine]:
     """A database migrated to head (a fresh copy of the template on PostgreSQL)."""
     pg = _postgres_url()
     if pg is None:
-        eng = make_engine(f"sqlite:///{tmp_path / 'test.sqlite'}")
-        migrate.upgrade(eng)
+        assert _pg_template is not None
+        target = tmp_path / "test.sqlite"
+        shutil.copyfile(_pg_template, target)
+        eng = make_engine(f"sqlite:///{target}")
         yield eng
         eng.dispose()
         return

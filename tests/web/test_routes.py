@@ -28,6 +28,7 @@ from riskreg.model import (
     Instrument,
     LockoutProcedure,
     Machine,
+    Modification,
     PressProfile,
     ProtectiveMeasure,
     RiskRating,
@@ -566,6 +567,63 @@ ROUTES: dict[str, Row] = {
         lambda st, s: st.hazard(s.hazard_id, "archived"),
         _becomes(True),
     ),
+    # records: review, approval, revisions, modifications, audit trail
+    "records.submit": Row(
+        "write",
+        lambda s: f"/assessments/{s.assessment_id}/submit",
+        ("POST",),
+        "assessor",
+        lambda st, s: {},
+        lambda st, s: st.value(Assessment, s.assessment_id, "status"),
+        _becomes("in_review"),
+    ),
+    # A draft cannot be approved or returned: the allowed roles get the page back
+    # with the reason, and nothing changes (refused roles get 403).
+    "records.approve": Row(
+        "write",
+        lambda s: f"/assessments/{s.assessment_id}/approve",
+        ("POST",),
+        "approver",
+        lambda st, s: {},
+        lambda st, s: st.value(Assessment, s.assessment_id, "status"),
+        _becomes("draft"),
+    ),
+    "records.return_to_draft": Row(
+        "write",
+        lambda s: f"/assessments/{s.assessment_id}/return",
+        ("POST",),
+        "approver",
+        lambda st, s: {"reason": "more detail"},
+        lambda st, s: st.value(Assessment, s.assessment_id, "status"),
+        _becomes("draft"),
+    ),
+    "records.revise": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/revise",
+        ("POST",),
+        "assessor",
+        lambda st, s: {"reason": "new die"},
+        _count(Assessment, machine_id="machine_id"),
+        _plus(0),
+    ),
+    "records.modification": Row(
+        "write",
+        lambda s: f"/machines/{s.machine_id}/modifications/new",
+        ("GET", "POST"),
+        "assessor",
+        lambda st, s: {
+            "kind": "die_set",
+            "description": "New blanking die",
+            "made_on": dt.date.today().isoformat(),
+        },
+        _count(Modification, machine_id="machine_id"),
+        _plus(1),
+    ),
+    "records.history": Row("read", lambda s: f"/machines/{s.machine_id}/revisions"),
+    "records.revision": Row("read", lambda s: f"/assessments/{s.assessment_id}"),
+    "records.re_evaluate": Row("read", lambda s: f"/assessments/{s.assessment_id}/re-evaluate"),
+    "records.machine_audit": Row("read", lambda s: f"/machines/{s.machine_id}/audit"),
+    "records.site_audit": Row("read", lambda s: f"/sites/{s.site_id}/audit"),
 }
 
 WRITES = [e for e, r in ROUTES.items() if r.access == "write"]
