@@ -242,7 +242,10 @@ def _sqlite_integrity(path: Path) -> None:
 
 def _sqlite_rows(path: Path) -> int | None:
     """Rows in the register tables of a SQLite file; None when it is not a database."""
-    con = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
+    try:
+        con = sqlite3.connect(path.absolute().as_uri() + "?mode=ro", uri=True)
+    except sqlite3.DatabaseError:
+        return None
     try:
         names = [
             r[0]

@@ -44,6 +44,7 @@ from sqlalchemy import (
     and_,
     func,
     insert,
+    null,
     or_,
     select,
     update,
@@ -1869,6 +1870,8 @@ class _Writer:
         for f in kind.fields:
             if f.name in rec:
                 values[f.name] = _db_value(kind, f.name, rec[f.name])
+                if values[f.name] is None and _column_type(kind, f.name) == "json":
+                    values[f.name] = null()  # SQL NULL, not the JSON text 'null'
         for r in kind.refs:
             ref = rec.get(r.name)
             if r.deferred or ref is None:
