@@ -13,7 +13,7 @@ import decimal
 from typing import Any
 
 from sqlalchemy import event, inspect
-from sqlalchemy.orm import Session, sessionmaker
+from sqlalchemy.orm import Session, object_session, sessionmaker
 
 from riskreg.model import (
     Area,
@@ -79,11 +79,19 @@ def _place(obj: Base) -> tuple[int | None, int | None]:
     elif isinstance(obj, RiskRating):
         assessment = obj.hazard.assessment if obj.hazard is not None else None
     else:
-        machine = getattr(obj, "machine", None)
-        if isinstance(machine, Machine):
-            return machine.site_id, machine.id
+        for via in ("machine", "safeguard", "hazard", "safety_function", "measurement", "profile"):
+            parent = getattr(obj, via, None)
+            if parent is not None and parent is not obj and isinstance(parent, Base):
+                if isinstance(parent, Machine):
+                    return parent.site_id, parent.id
+                return _place(parent)
+        machine_id = getattr(obj, "machine_id", None)
         site_id = getattr(obj, "site_id", None)
-        return site_id, getattr(obj, "machine_id", None)
+        if machine_id is not None and site_id is None:
+            session = object_session(obj)
+            m = session.get(Machine, machine_id) if session is not None else None
+            site_id = m.site_id if m is not None else None
+        return site_id, machine_id
     if assessment is None or assessment.machine is None:
         return None, None
     return assessment.machine.site_id, assessment.machine_id

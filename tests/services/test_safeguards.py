@@ -265,3 +265,19 @@ def test_close_action_needs_a_note(session: Session, press) -> None:
         safeguards.close_action(session, a, "")
     safeguards.close_action(session, a, "Guard fitted, photo in the binder")
     assert a.status == "closed"
+
+
+def test_audit_entries_of_checks_name_their_machine(session: Session, press) -> None:
+    from riskreg.model import AuditEntry
+
+    _curtain(session, press, installed=450)
+    safeguards.record_measurement(
+        session, press, {"measured_on": "2026-11-20", "trials_ms": "170, 180"}
+    )
+    rows = session.execute(
+        select(AuditEntry.entity, AuditEntry.site_id, AuditEntry.machine_id).where(
+            AuditEntry.entity.in_(("distance_check", "stopping_time_measurement"))
+        )
+    ).all()
+    assert {r[0] for r in rows} == {"distance_check", "stopping_time_measurement"}
+    assert all((r[1], r[2]) == (press.site_id, press.id) for r in rows)
