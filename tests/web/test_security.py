@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Callable
+from pathlib import Path
 from urllib.parse import urljoin, urlsplit
 
 import pytest
@@ -154,3 +155,34 @@ def test_login_follows_an_inside_next_address(app: Flask, seed: Seed) -> None:
     resp = client.post(login_url, data={"email": Seed.email("viewer"), "password": PASSWORD})
     assert resp.status_code == 302
     assert resp.headers["Location"] == f"/machines/{seed.machine_id}"
+
+
+@pytest.mark.parametrize("hops", [0, 1])
+def test_behind_a_proxy_the_forwarded_address_counts(
+    engine_url: str, seed: Seed, instance_dir: Path, hops: int
+) -> None:
+    """With RISKREG_PROXY_HOPS the proxy's X-Forwarded-For names the client, so one
+    client's failed logins do not lock out another; without it the header is ignored
+    (a client could forge it) and every request counts as the same address."""
+    from webtools import make_app
+
+    app = make_app(engine_url, PROXY_HOPS=hops)
+    c = app.test_client()
+    email = Seed.email("assessor")
+    for _ in range(5):
+        r = c.post(
+            "/login",
+            data={"email": email, "password": "wrong"},
+            headers={"X-Forwarded-For": "10.0.0.1", "X-Forwarded-Proto": "https"},
+        )
+        assert r.status_code == 401
+    other = c.post(
+        "/login",
+        data={"email": email, "password": PASSWORD},
+        headers={"X-Forwarded-For": "10.0.0.2", "X-Forwarded-Proto": "https"},
+    )
+    if hops:
+        assert other.status_code == 302
+        assert "Secure" in other.headers.get("Set-Cookie", "")
+    else:
+        assert other.status_code == 429
