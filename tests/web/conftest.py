@@ -129,6 +129,7 @@ def seed(engine: Engine, instance_dir: Path, monkeypatch: pytest.MonkeyPatch) ->
             measure_id=measure.id,
             function_id=sf.id,
             file_id=photo.id,
+            viewer_id=people["viewer"].id,
         )
 
 

@@ -41,6 +41,7 @@ class Seed:
     measure_id: int
     function_id: int
     file_id: int
+    viewer_id: int
 
     @staticmethod
     def email(role: str) -> str:
