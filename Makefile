@@ -55,5 +55,18 @@ system-deps:
 
 test: system-deps lint typecheck unit
 
+# Seconds per page, overhead over WeasyPrint's own layout and peak memory of the PDF
+# reports on synthetic sites of 50 and 500 machines; writes bench/REPORTS.md (slow).
+.PHONY: bench-reports
+bench-reports: $(STAMP)
+	$(BIN)/python bench/reports.py
+
+# Benchmarks at plant and enterprise scale: synthetic registers of 50, 500 and 5,000
+# machines (cached in bench/out/), served over HTTP, on SQLite and, when
+# BENCH_POSTGRES_URL or RISKREG_TEST_POSTGRES_URL names a server, on PostgreSQL;
+# writes bench/RESULTS.md. Slow; BENCH_SIZES=50,500 limits the sizes.
+bench: $(STAMP)
+	$(BIN)/python bench/run.py
+
 clean:
 	rm -rf $(VENV) .pytest_cache .mypy_cache .ruff_cache .coverage

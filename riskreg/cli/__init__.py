@@ -22,7 +22,9 @@ def cli() -> None:
 
 
 def _register_commands() -> None:
+    from . import exchange as _exchange  # noqa: F401  (registers export, import, backup, restore)
     from . import register  # noqa: F401  (registers init, serve, demo, machines)
+    from . import reports as _reports  # noqa: F401  (registers report machine/site/due/…)
     from .calc import calc
 
     if "calc" not in cli.commands:

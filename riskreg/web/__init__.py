@@ -18,7 +18,7 @@ from riskreg.services import audit
 from riskreg.services.errors import Forbidden, NotFound
 
 ROOT = Path(__file__).resolve().parent.parent.parent
-PUBLIC_ENDPOINTS = {"auth.login", "static"}
+PUBLIC_ENDPOINTS = {"auth.login", "static", "trust.calendar_feed"}
 csrf = CSRFProtect()
 login_manager = LoginManager()
 
@@ -64,6 +64,16 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     )
     if config:
         app.config.update(config)
+    hops = int(app.config.get("PROXY_HOPS") or os.environ.get("RISKREG_PROXY_HOPS") or 0)
+    if hops:
+        # Behind a reverse proxy with TLS: trust its X-Forwarded-* headers (that many
+        # proxies), so client addresses, the scheme and links are the real ones.
+        from werkzeug.middleware.proxy_fix import ProxyFix
+
+        app.wsgi_app = ProxyFix(  # type: ignore[method-assign]
+            app.wsgi_app, x_for=hops, x_proto=hops, x_host=hops, x_port=hops
+        )
+        app.config.update(SESSION_COOKIE_SECURE=True, REMEMBER_COOKIE_SECURE=True)
     instance = Path(app.instance_path)
     if not app.config.get("SECRET_KEY"):
         app.config["SECRET_KEY"] = _secret_key(instance)
@@ -160,13 +170,19 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
             "file (a photo from a phone is usually 2–5 MB).",
         ), 413
 
-    from . import auth, hazards, machines, safeguards, sites
+    from . import admin, auth, hazards, machines, records, safeguards, sites, trust
 
     app.register_blueprint(auth.bp)
+    app.register_blueprint(admin.bp)
     app.register_blueprint(sites.bp)
     app.register_blueprint(machines.bp)
     app.register_blueprint(hazards.bp)
     app.register_blueprint(safeguards.bp)
+    app.register_blueprint(records.bp)
+    app.register_blueprint(trust.bp)
+    from . import reports as report_downloads  # PDF reports
+
+    app.register_blueprint(report_downloads.bp)
 
     from .helpers import register_template_helpers
 

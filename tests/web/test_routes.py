@@ -620,6 +620,21 @@ ROUTES: dict[str, Row] = {
         _count(Modification, machine_id="machine_id"),
         _plus(1),
     ),
+    # printable reports (each read route renders a real PDF; tests/reports checks them)
+    "reports.machine_report": Row("read", lambda s: f"/machines/{s.machine_id}/report.pdf"),
+    "reports.latest_certificate": Row(
+        "read", lambda s: f"/machines/{s.machine_id}/certificate.pdf"
+    ),
+    "reports.certificate": Row(
+        "read", lambda s: f"/measurements/{s.measurement_id}/certificate.pdf"
+    ),
+    "reports.due_report": Row("read", lambda s: f"/sites/{s.site_id}/due-report.pdf"),
+    "reports.labels": Row("read", lambda s: f"/areas/{s.area_id}/labels.pdf"),
+    # The site report runs as a background job (tests/reports/test_web.py follows one);
+    # here: anonymous is sent to log in, and the POST needs its CSRF token.
+    "reports.start_site_report": Row("session", lambda s: f"/sites/{s.site_id}/report", ("POST",)),
+    "reports.site_report_status": Row("session", lambda s: "/reports/0123456789abcdef"),
+    "reports.site_report_file": Row("session", lambda s: "/reports/0123456789abcdef/1.pdf"),
     # administration
     "admin.people": Row(
         "write",
