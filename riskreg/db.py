@@ -45,6 +45,12 @@ def make_engine(url: str, **kwargs: Any) -> Engine:
             cur.close()
 
         return engine
+    if url.startswith("postgresql"):
+        # The register's queries are short; PostgreSQL's JIT compiler would spend longer
+        # compiling a large one (the due items' union) than running it, on every run.
+        connect_args = dict(kwargs.pop("connect_args", {}))
+        connect_args.setdefault("options", "-c jit=off")
+        kwargs["connect_args"] = connect_args
     return create_engine(url, pool_pre_ping=True, **kwargs)
 
 

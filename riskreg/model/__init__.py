@@ -17,6 +17,7 @@ from sqlalchemy import (
     DateTime,
     Float,
     ForeignKey,
+    Index,
     Integer,
     MetaData,
     String,
@@ -577,6 +578,13 @@ class Verification(Base):
     """One verification of a safeguard or safety function, with its evidence."""
 
     __tablename__ = "verification"
+    __table_args__ = (
+        # the newest passing verification of a kind, per safeguard or per machine, read
+        # from the index alone (services.due)
+        Index(
+            "ix_verification_due", "machine_id", "kind", "safeguard_id", "performed_on", "result"
+        ),
+    )
 
     id: Mapped[int] = mapped_column(primary_key=True)
     machine_id: Mapped[int] = mapped_column(ForeignKey("machine.id"), index=True)

@@ -1,14 +1,47 @@
 """What is due: every verification, check, replacement, inspection and calibration
-with its next date, computed with a fixed number of set-based queries."""
+with its next date.
+
+The whole computation is one SQL query (a ``UNION ALL`` of one ``SELECT`` per kind
+of item, each with its due date worked out by the database), so the number of
+statements does not depend on the size of the register and the database sorts,
+counts and pages the items: :func:`due_items` gives them all (the CLI, the reports,
+the calendar feed), :func:`due_page` one page with the counts of every section (the
+due board), :func:`due_summary` the counts alone (the site overview). Three small
+queries prepare it: the site's intervals, the T10d of each distinct component duty
+(from the engineering core, ISO 13849-1 Annex C) and the working-day patterns of the
+start-of-shift checklists. The statement is built once per shape (kinds, filters,
+number of duties and of runs of working days) with every value bound, so SQLAlchemy
+compiles it once; ``tests/services`` and ``tests/web`` check its items.
+"""
 
 from __future__ import annotations
 
 import datetime as dt
+import functools
+import math
 from dataclasses import asdict, dataclass
 from typing import Any
 
-from sqlalchemy import func, select
-from sqlalchemy.orm import Session
+from sqlalchemy import (
+    Boolean,
+    Date,
+    Float,
+    Integer,
+    String,
+    and_,
+    bindparam,
+    case,
+    cast,
+    func,
+    literal,
+    null,
+    or_,
+    select,
+    type_coerce,
+    union_all,
+)
+from sqlalchemy.dialects.postgresql import JSONB
+from sqlalchemy.orm import Session, aliased
 
 from riskreg.engineering import pl
 from riskreg.model import (
@@ -47,6 +80,9 @@ LABELS = {k: v.label for k, v in KINDS.items()} | {
     "shift_check": "Start-of-shift checks missed",
 }
 SHIFT_WINDOW_DAYS = 30
+PAGE_SIZE = 100  # items per page of the due board
+MAX_T10D_YEARS = 7000.0  # a longer T10d runs past the calendar (year 9999): no item
+STATUSES = ("overdue", "within 7 days", "within 30 days", "later")
 
 
 @dataclass(frozen=True)
@@ -83,6 +119,851 @@ class DueItem:
         return d
 
 
+@dataclass(frozen=True)
+class DuePage:
+    """One page of the due items, soonest first, with the counts of all of them."""
+
+    items: list[DueItem]
+    counts: dict[str, int]  # every status of STATUSES, over all pages
+    total: int
+    page: int  # 1-based; a page past the end is brought back to the last one
+    pages: int
+    per_page: int
+
+    @property
+    def first(self) -> int:
+        """Position (1-based) of the page's first item among all of them."""
+        return (self.page - 1) * self.per_page + 1 if self.items else 0
+
+    def page_of(self, status: str) -> int:
+        """The page on which the items of a status start."""
+        return page_of(self.counts, status, self.per_page)
+
+
+def page_of(counts: dict[str, int], status: str, per_page: int = PAGE_SIZE) -> int:
+    """The page of the due board on which the items of a status start (the statuses
+    follow each other in the order of STATUSES)."""
+    before = 0
+    for s in STATUSES:
+        if s == status:
+            break
+        before += counts[s]
+    return before // per_page + 1
+
+
+def counts(items: list[DueItem]) -> dict[str, int]:
+    out = {"overdue": 0, "within 7 days": 0, "within 30 days": 0}
+    for i in items:
+        if i.status in out:
+            out[i.status] += 1
+    return out
+
+
+# --- the query ---------------------------------------------------------------------------
+
+
+@functools.lru_cache(maxsize=4096)
+def _t10d_years(b10d: float, days_per_year: float, hours_per_day: float, cycle: float) -> float:
+    """T10d of a component duty from the engineering core (ValueError when refused)."""
+    return float(pl.component_mttfd(b10d, days_per_year, hours_per_day, cycle).t10d_years)
+
+
+class _Dates:
+    """Date arithmetic and text order, which the two databases spell differently."""
+
+    def __init__(self, pg: bool) -> None:
+        self.pg = pg
+
+    def value(self, name: str, typ: Any) -> Any:
+        """A value bound at execution (cast on PostgreSQL, which needs the type in a
+        select list; on SQLite a CAST to DATE would make a number of it)."""
+        p = bindparam(name, type_=typ)
+        return cast(p, typ) if self.pg else p
+
+    def day_of(self, stamp: Any) -> Any:
+        """The date of a timestamp, as Python's ``.date()`` of the loaded value gives it."""
+        return cast(stamp, Date) if self.pg else type_coerce(func.date(stamp), Date)
+
+    def plus(self, day: Any, days: Any) -> Any:
+        """``day`` plus ``days`` days (NULL when either is NULL)."""
+        if self.pg:
+            return type_coerce(cast(day, Date) + cast(days, Integer), Date)
+        return type_coerce(func.date(day, func.printf("%+d days", days)), Date)
+
+    def later(self, a: Any, b: Any) -> Any:
+        """The later of two dates."""
+        return func.greatest(a, b) if self.pg else type_coerce(func.max(a, b), Date)
+
+    def days_between(self, a: Any, b: Any) -> Any:
+        """Whole days from date ``a`` to date ``b``."""
+        if self.pg:
+            return cast(b, Date) - cast(a, Date)
+        return cast(func.julianday(b) - func.julianday(a), Integer)
+
+    def lists(self, json_list: Any, value: Any) -> Any:
+        """True when the JSON list of numbers holds the value."""
+        if self.pg:
+            return cast(json_list, JSONB).contains(func.jsonb_build_array(value))
+        each = func.json_each(json_list).table_valued("value")
+        return select(each.c.value).where(each.c.value == value).exists()
+
+    def text_key(self, expr: Any) -> Any:
+        """Sort text by code point, as Python sorts strings."""
+        return expr.collate("C") if self.pg else expr
+
+
+COLUMNS = (
+    ("due", Date),
+    ("kind", String),
+    ("machine_id", Integer),
+    ("safeguard_id", Integer),
+    ("last_done", Date),
+    ("interval_days", Integer),
+    ("tag", String),
+    ("label", String),
+    ("machine_name", String),
+    ("area", String),
+    ("text", String),
+    ("serial", String),
+    ("n", Integer),
+    ("trusted", Boolean),
+    ("ref", Integer),
+)
+
+
+def _select(**cols: Any) -> Any:
+    """One SELECT of the union: every column of COLUMNS, missing ones NULL."""
+    out = []
+    for name, typ in COLUMNS:
+        value = cols.get(name)
+        if value is None:
+            value = cast(null(), typ)  # typed: PostgreSQL takes an untyped NULL for text
+        elif not isinstance(getattr(value, "type", None), typ):
+            value = type_coerce(value, typ)
+        out.append(value.label(name))
+    return select(*out)
+
+
+@dataclass(frozen=True)
+class _Shape:
+    """What decides the statement's text; every other value is bound."""
+
+    pg: bool
+    kinds: tuple[str, ...]
+    area: bool
+    machine: bool
+    within: bool
+    calendar_free: tuple[str, ...]  # per-safeguard kinds with no interval at the site
+    duties: int
+    runs: int  # runs of working days in the start-of-shift window, over the patterns
+
+
+_STATEMENTS: dict[_Shape, Any] = {}
+
+
+class _Build:
+    """The union of every kind of due item of one site, for one shape."""
+
+    def __init__(self, shape: _Shape) -> None:
+        self.shape = shape
+        self.d = _Dates(shape.pg)
+
+    def machines(self) -> Any:
+        """The site's machines in service that pass the filters (a subquery of ids)."""
+        q = select(Machine.id).where(
+            Machine.site_id == bindparam("site_id", type_=Integer), Machine.active.is_(True)
+        )
+        if self.shape.area:
+            q = q.join(Area, Area.id == Machine.area_id).where(
+                Area.name == bindparam("area", type_=String)
+            )
+        if self.shape.machine:
+            q = q.where(Machine.id == bindparam("machine_id", type_=Integer))
+        return q
+
+    @staticmethod
+    def _machine_cols(m: Any, a: Any) -> dict[str, Any]:
+        return {"machine_id": m.id, "tag": m.asset_tag, "machine_name": m.name, "area": a.name}
+
+    @staticmethod
+    def _last_pass(sg: Any, k: str) -> Any:
+        """The newest passing verification of a kind of one safeguard (an index seek)."""
+        return (
+            select(func.max(Verification.performed_on))
+            .where(
+                Verification.safeguard_id == sg.id,
+                Verification.kind == k,
+                Verification.result != "fail",
+            )
+            .correlate(sg)
+            .scalar_subquery()
+        )
+
+    @staticmethod
+    def _last_passes(ids: Any, k: str, by: Any) -> Any:
+        """The newest passing verification of a kind, per safeguard or per machine, over
+        the machines' verifications (one range of ix_verification_due per machine). A
+        grouped subquery: the database computes it once, however often it is used."""
+        return (
+            select(by.label("owner"), func.max(Verification.performed_on).label("last"))
+            .where(
+                Verification.machine_id.in_(ids),
+                Verification.kind == k,
+                Verification.result != "fail",
+                by.is_not(None),
+            )
+            .group_by(by)
+            .subquery(f"last_{k}")
+        )
+
+    # -- one SELECT per kind ------------------------------------------------------------
+
+    def safeguard_kind(self, ids: Any, k: str) -> Any:
+        """Functional tests and inspections: from the last pass, or at once when none."""
+        d = self.d
+        m, a, sg = aliased(Machine), aliased(Area), aliased(Safeguard)
+        own = aliased(VerificationInterval)  # the safeguard's own interval wins
+        if k in self.shape.calendar_free:
+            every = own.days
+        else:
+            every = func.coalesce(own.days, self.d.value(f"days_{k}", Integer))
+        lp = self._last_passes(ids, k, Verification.safeguard_id)
+        last = lp.c.last
+        q = (
+            _select(
+                due=func.coalesce(d.plus(last, every), d.day_of(sg.created_at)),
+                kind=literal(k),
+                safeguard_id=sg.id,
+                last_done=last,
+                interval_days=every,
+                label=sg.label,
+                trusted=sg.trusted,
+                ref=sg.id,
+                **self._machine_cols(m, a),
+            )
+            .select_from(sg)
+            .join(m, m.id == sg.machine_id)
+            .outerjoin(a, a.id == m.area_id)
+            .outerjoin(
+                own,
+                and_(
+                    own.site_id == bindparam("site_id", type_=Integer),
+                    own.safeguard_id == sg.id,
+                    own.kind == k,
+                ),
+            )
+            .outerjoin(lp, lp.c.owner == sg.id)
+            .where(sg.machine_id.in_(ids), sg.status == "installed")
+        )
+        if k in self.shape.calendar_free:
+            q = q.where(own.days.is_not(None))
+        return q
+
+    def full_validation(self, ids: Any) -> Any:
+        """After a modification: from the day of the latest one naming the safeguard."""
+        m, a, sg = aliased(Machine), aliased(Area), aliased(Safeguard)
+        mo = aliased(Modification)
+        since = (
+            select(func.max(mo.made_on))
+            .where(mo.machine_id == sg.machine_id, self.d.lists(mo.safeguard_ids, sg.id))
+            .correlate(sg)
+            .scalar_subquery()
+        )
+        return (
+            _select(
+                due=func.coalesce(since, self.d.value("today", Date)),
+                kind=literal("full_validation"),
+                safeguard_id=sg.id,
+                last_done=self._last_pass(sg, "full_validation"),
+                label=sg.label,
+                ref=sg.id,
+                **self._machine_cols(m, a),
+            )
+            .select_from(sg)
+            .join(m, m.id == sg.machine_id)
+            .outerjoin(a, a.id == m.area_id)
+            .where(
+                sg.machine_id.in_(ids),
+                sg.status == "installed",
+                sg.needs_revalidation.is_(True),
+            )
+        )
+
+    def stopping_time(self, ids: Any) -> Any:
+        """Per machine with a distance-dependent safeguard."""
+        d = self.d
+        m, a = aliased(Machine), aliased(Area)
+        stops = (
+            select(
+                StoppingTimeMeasurement.machine_id.label("owner"),
+                func.max(StoppingTimeMeasurement.measured_on).label("last"),
+            )
+            .where(StoppingTimeMeasurement.machine_id.in_(ids))
+            .group_by(StoppingTimeMeasurement.machine_id)
+            .subquery("last_stop")
+        )
+        last = stops.c.last
+        guarded = select(Safeguard.machine_id).where(
+            Safeguard.machine_id.in_(ids),
+            Safeguard.status == "installed",
+            Safeguard.kind.in_(sorted(DISTANCE_KINDS)),
+        )
+        return (
+            _select(
+                due=func.coalesce(
+                    d.plus(last, self.d.value("stop_days", Integer)), d.day_of(m.created_at)
+                ),
+                kind=literal("stopping_time"),
+                last_done=last,
+                interval_days=self.d.value("stop_every", Integer),
+                ref=m.id,
+                **self._machine_cols(m, a),
+            )
+            .select_from(m)
+            .outerjoin(a, a.id == m.area_id)
+            .outerjoin(stops, stops.c.owner == m.id)
+            .where(m.id.in_(guarded))
+        )
+
+    def weekly_press(self, ids: Any) -> Any:
+        """Mechanical presses not exempt by 1910.217(b)(13) and (b)(14)."""
+        d = self.d
+        m, a, p = aliased(Machine), aliased(Area), aliased(PressProfile)
+        weekly = self._last_passes(ids, "weekly_press", Verification.machine_id)
+        last = weekly.c.last
+        every = self.d.value("weekly_days", Integer)
+        return (
+            _select(
+                due=func.coalesce(d.plus(last, every), d.day_of(m.created_at)),
+                kind=literal("weekly_press"),
+                last_done=last,
+                interval_days=every,
+                ref=m.id,
+                **self._machine_cols(m, a),
+            )
+            .select_from(m)
+            .outerjoin(a, a.id == m.area_id)
+            .outerjoin(p, p.machine_id == m.id)
+            .outerjoin(weekly, weekly.c.owner == m.id)
+            .where(
+                m.id.in_(ids),
+                m.kind == "mechanical_press",
+                or_(
+                    p.id.is_(None),
+                    ~and_(p.brake_monitor.is_(True), p.control_reliable.is_(True)),
+                ),
+            )
+        )
+
+    def replacement(self, ids: Any) -> Any:
+        """Parts of current assessments with a usage, at T10d; the duties' days bound."""
+        d = self.d
+        m, a = aliased(Machine), aliased(Area)
+        part = aliased(SafetyFunctionPart)
+        current = (
+            select(func.max(Assessment.id))
+            .where(Assessment.machine_id.in_(ids), Assessment.status != "superseded")
+            .group_by(Assessment.machine_id)
+        )
+        same = [
+            and_(
+                part.b10d == bindparam(f"b10d_{i}", type_=Float),
+                part.days_per_year == bindparam(f"dop_{i}", type_=Float),
+                part.hours_per_day == bindparam(f"hop_{i}", type_=Float),
+                part.cycle_time_s == bindparam(f"tc_{i}", type_=Float),
+            )
+            for i in range(self.shape.duties)
+        ]
+        which = case(*[(cond, literal(i)) for i, cond in enumerate(same)])
+        days = case(
+            *[(cond, self.d.value(f"duty_days_{i}", Integer)) for i, cond in enumerate(same)]
+        )
+        return (
+            _select(
+                due=d.plus(part.installed_on, days),
+                kind=literal("replacement"),
+                last_done=part.installed_on,
+                text=part.name,
+                n=which,
+                ref=part.id,
+                **self._machine_cols(m, a),
+            )
+            .select_from(part)
+            .join(SafetyFunction, SafetyFunction.id == part.safety_function_id)
+            .join(Assessment, Assessment.id == SafetyFunction.assessment_id)
+            .join(m, m.id == Assessment.machine_id)
+            .outerjoin(a, a.id == m.area_id)
+            .where(Assessment.id.in_(current), part.installed_on.is_not(None), or_(*same))
+        )
+
+    def lockout(self, ids: Any) -> Any:
+        d = self.d
+        m, a, lp = aliased(Machine), aliased(Area), aliased(LockoutProcedure)
+        return (
+            _select(
+                due=func.coalesce(
+                    d.plus(lp.last_inspected_on, lp.interval_days), d.day_of(m.created_at)
+                ),
+                kind=literal("lockout"),
+                last_done=lp.last_inspected_on,
+                interval_days=lp.interval_days,
+                text=lp.title,
+                ref=lp.id,
+                **self._machine_cols(m, a),
+            )
+            .select_from(lp)
+            .join(m, m.id == lp.machine_id)
+            .outerjoin(a, a.id == m.area_id)
+            .where(lp.machine_id.in_(ids))
+        )
+
+    def shift_checks(self, ids: Any) -> Any:
+        """One line per machine whose start-of-shift checks were missed in the window.
+
+        First, per checklist and per run of consecutive working days of its pattern
+        (bound), the checks recorded against those expected: one index range each.
+        Then, for the checklists that fall short only, per working day, the shifts
+        not recorded, for the first day missed and their number."""
+        d = self.d
+        m, a, cl = aliased(Machine), aliased(Area), aliased(ShiftChecklist)
+        runs = union_all(
+            *[
+                select(
+                    d.value(f"pattern_{i}", String).label("pattern"),
+                    d.value(f"run_from_{i}", Date).label("d1"),
+                    d.value(f"run_to_{i}", Date).label("d2"),
+                )
+                for i in range(self.shape.runs)
+            ]
+        ).cte("runs")
+        first = d.later(runs.c.d1, cl.active_since)
+        recorded = (
+            select(func.count())
+            .where(
+                ShiftCheck.machine_id == cl.machine_id,
+                ShiftCheck.shift_date >= first,
+                ShiftCheck.shift_date <= runs.c.d2,
+                ShiftCheck.shift >= 1,
+                ShiftCheck.shift <= cl.shifts_per_day,
+            )
+            .correlate(cl, runs)
+            .scalar_subquery()
+        )
+        per_run = (
+            select(
+                cl.machine_id.label("mid"),
+                ((d.days_between(first, runs.c.d2) + 1) * cl.shifts_per_day).label("expected"),
+                recorded.label("done"),
+            )
+            .select_from(cl)
+            .join(runs, and_(runs.c.pattern == cl.working_days, runs.c.d2 >= cl.active_since))
+            .where(cl.machine_id.in_(ids))
+            .subquery("per_run")
+        )
+        short = (
+            select(per_run.c.mid)
+            .group_by(per_run.c.mid)
+            .having(func.sum(per_run.c.expected) > func.sum(per_run.c.done))
+        )
+        days = union_all(
+            *[
+                select(
+                    d.value(f"day_{i}", Date).label("day"),
+                    d.value(f"weekday_{i}", String).label("weekday"),
+                )
+                for i in range(SHIFT_WINDOW_DAYS)
+            ]
+        ).cte("window")
+        per_day = (
+            select(
+                cl.machine_id.label("mid"),
+                days.c.day.label("day"),
+                (cl.shifts_per_day - func.count(ShiftCheck.id)).label("missing"),
+            )
+            .select_from(cl)
+            .join(
+                days,
+                and_(days.c.day >= cl.active_since, cl.working_days.contains(days.c.weekday)),
+            )
+            .outerjoin(
+                ShiftCheck,
+                and_(
+                    ShiftCheck.machine_id == cl.machine_id,
+                    ShiftCheck.shift_date == days.c.day,
+                    ShiftCheck.shift >= 1,
+                    ShiftCheck.shift <= cl.shifts_per_day,
+                ),
+            )
+            .where(cl.machine_id.in_(short))
+            .group_by(cl.machine_id, days.c.day, cl.shifts_per_day)
+            .subquery("per_day")
+        )
+        missed = (
+            select(
+                per_day.c.mid,
+                func.min(per_day.c.day).label("first"),
+                func.sum(per_day.c.missing).label("n"),
+            )
+            .where(per_day.c.missing > 0)
+            .group_by(per_day.c.mid)
+            .subquery("missed")
+        )
+        return (
+            _select(
+                due=missed.c.first,
+                kind=literal("shift_check"),
+                interval_days=literal(1),
+                n=missed.c.n,
+                ref=m.id,
+                **self._machine_cols(m, a),
+            )
+            .select_from(missed)
+            .join(m, m.id == missed.c.mid)
+            .outerjoin(a, a.id == m.area_id)
+        )
+
+    def calibration(self) -> Any:
+        d = self.d
+        ins = aliased(Instrument)
+        return _select(
+            due=func.coalesce(
+                d.plus(ins.calibrated_on, ins.calibration_interval_days),
+                self.d.value("today", Date),
+            ),
+            kind=literal("calibration"),
+            last_done=ins.calibrated_on,
+            interval_days=ins.calibration_interval_days,
+            tag=literal(""),
+            text=ins.name,
+            serial=ins.serial,
+            ref=ins.id,
+        ).where(ins.site_id == bindparam("site_id", type_=Integer), ins.active.is_(True))
+
+    # -- the whole -----------------------------------------------------------------------
+
+    def union(self) -> Any:
+        ids = self.machines()
+        parts: list[Any] = []
+        for k in self.shape.kinds:
+            if k in ("functional_test", "inspection"):
+                parts.append(self.safeguard_kind(ids, k))
+            elif k == "full_validation":
+                parts.append(self.full_validation(ids))
+            elif k == "stopping_time":
+                parts.append(self.stopping_time(ids))
+            elif k == "weekly_press":
+                parts.append(self.weekly_press(ids))
+            elif k == "replacement":
+                parts.append(self.replacement(ids))
+            elif k == "lockout":
+                parts.append(self.lockout(ids))
+            elif k == "shift_check":
+                parts.append(self.shift_checks(ids))
+            elif k == "calibration":
+                parts.append(self.calibration())
+        u = union_all(*parts).subquery("due_items")
+        keep = (
+            u.c.due <= bindparam("limit", type_=Date) if self.shape.within else u.c.due.is_not(None)
+        )
+        d = self.d
+        ordered = (
+            select(u)
+            .where(keep)
+            .order_by(
+                u.c.due,
+                d.text_key(func.coalesce(u.c.tag, "")),
+                d.text_key(func.coalesce(u.c.label, "")),
+                d.text_key(u.c.kind),
+                u.c.ref,
+            )
+        )
+
+        def n(cond: Any) -> Any:
+            return func.coalesce(func.sum(case((cond, 1), else_=0)), 0)
+
+        today = bindparam("today", type_=Date)
+        week = bindparam("week", type_=Date)
+        month = bindparam("month", type_=Date)
+        by_status = (
+            u.c.due < today,
+            and_(u.c.due >= today, u.c.due <= week),
+            and_(u.c.due > week, u.c.due <= month),
+            u.c.due > month,
+        )
+        counts = select(*[n(cond) for cond in by_status]).where(keep)
+        # a page with the counts of all the items beside each row: one execution
+        paged = ordered.add_columns(
+            *[
+                func.sum(case((cond, 1), else_=0)).over().label(f"count_{i}")
+                for i, cond in enumerate(by_status)
+            ]
+        )
+        return ordered, counts, paged
+
+
+class _DueQuery:
+    """One computation: the statements for its shape and the values they are run with."""
+
+    def __init__(
+        self,
+        session: Session,
+        site: Site,
+        today: dt.date,
+        *,
+        area: str | None,
+        machine_id: int | None,
+        kind: str | None,
+        within_days: int | None,
+    ) -> None:
+        self.session = session
+        self.today = today
+        intervals: dict[tuple[int | None, str], int] = {
+            (r.safeguard_id, r.kind): r.days
+            for r in session.scalars(
+                select(VerificationInterval).where(VerificationInterval.site_id == site.id)
+            )
+        }
+
+        def site_interval(k: str) -> int | None:
+            """The site's interval of a kind (the per-safeguard ones are joined in SQL)."""
+            if (None, k) in intervals:
+                return intervals[(None, k)]
+            return KINDS[k].default_days
+
+        kinds = [k for k in KIND_ORDER if kind is None or kind == k]
+        if machine_id or area:
+            kinds = [k for k in kinds if k != "calibration"]  # site items, not a machine's
+        start = today - dt.timedelta(days=SHIFT_WINDOW_DAYS)
+        stop_every = site_interval("stopping_time")
+        params: dict[str, Any] = {
+            "site_id": site.id,
+            "today": today,
+            "week": today + dt.timedelta(days=7),
+            "month": today + dt.timedelta(days=30),
+            "stop_every": stop_every,
+            "stop_days": stop_every or 365,
+            "weekly_days": site_interval("weekly_press") or 7,
+        }
+        for i in range(SHIFT_WINDOW_DAYS):
+            day = start + dt.timedelta(days=i)
+            params[f"day_{i}"] = day
+            params[f"weekday_{i}"] = str(day.isoweekday())
+        free = []
+        for k in ("functional_test", "inspection"):
+            every = site_interval(k)
+            if every is None:
+                free.append(k)
+            params[f"days_{k}"] = every
+        if area:
+            params["area"] = area
+        if machine_id:
+            params["machine_id"] = machine_id
+        if within_days is not None:
+            params["limit"] = today + dt.timedelta(days=within_days)
+        self.t10d: dict[int, float] = {}  # T10d in years of each component duty
+        if "replacement" in kinds:
+            for b10d, dop, hop, tc in session.execute(_duties(site.id, area, machine_id)):
+                if None in (b10d, dop, hop, tc):
+                    continue  # refused by the engineering core, as an empty duty would be
+                try:
+                    years = _t10d_years(float(b10d), float(dop), float(hop), float(tc))
+                except ValueError:
+                    continue
+                if not math.isfinite(years) or years > MAX_T10D_YEARS:
+                    continue
+                i = len(self.t10d)
+                self.t10d[i] = years
+                params.update(
+                    {
+                        f"b10d_{i}": b10d,
+                        f"dop_{i}": dop,
+                        f"hop_{i}": hop,
+                        f"tc_{i}": tc,
+                        f"duty_days_{i}": round(years * 365.25),
+                    }
+                )
+            if not self.t10d:
+                kinds.remove("replacement")
+        runs = 0
+        if "shift_check" in kinds:
+            ids = _machines(site.id, area, machine_id)
+            patterns = session.scalars(
+                select(ShiftChecklist.working_days)
+                .where(ShiftChecklist.machine_id.in_(ids))
+                .distinct()
+            )
+            for pattern in sorted(p for p in patterns if p):
+                for d1, d2 in _working_runs(pattern, start, SHIFT_WINDOW_DAYS):
+                    params[f"pattern_{runs}"] = pattern
+                    params[f"run_from_{runs}"] = d1
+                    params[f"run_to_{runs}"] = d2
+                    runs += 1
+            if not runs:
+                kinds.remove("shift_check")
+        self.params = params
+        self.empty = not kinds
+        if self.empty:
+            return
+        shape = _Shape(
+            pg=session.get_bind().dialect.name == "postgresql",
+            kinds=tuple(kinds),
+            area=bool(area),
+            machine=bool(machine_id),
+            within=within_days is not None,
+            calendar_free=tuple(free),
+            duties=len(self.t10d),
+            runs=runs,
+        )
+        built = _STATEMENTS.get(shape)
+        if built is None:
+            if len(_STATEMENTS) > 256:
+                _STATEMENTS.clear()
+            built = _STATEMENTS[shape] = _Build(shape).union()
+        self.ordered, self.counts, self.paged = built
+
+    def summary(self) -> dict[str, int]:
+        if self.empty:
+            return dict.fromkeys(STATUSES, 0)
+        row = self.session.execute(self.counts, self.params).one()
+        return {s: int(v) for s, v in zip(STATUSES, row, strict=True)}
+
+    def items(self) -> list[DueItem]:
+        if self.empty:
+            return []
+        return [self.item(r) for r in self.session.execute(self.ordered, self.params)]
+
+    def page(self, limit: int, offset: int) -> tuple[list[DueItem], dict[str, int] | None]:
+        """A page of the items and the counts of them all (None when the page is empty)."""
+        if self.empty:
+            return [], dict.fromkeys(STATUSES, 0)
+        rows = list(self.session.execute(self.paged.limit(limit).offset(offset), self.params))
+        if not rows:
+            return [], None
+        n = {s: int(rows[0]._mapping[f"count_{i}"]) for i, s in enumerate(STATUSES)}
+        return [self.item(r) for r in rows], n
+
+    def item(self, r: Any) -> DueItem:
+        k = r.kind
+        if k == "full_validation":
+            detail = (
+                f"modified on {r.due}: validate the safety function again "
+                "(ISO 13849-2) before relying on it"
+            )
+        elif k in ("functional_test", "inspection"):
+            detail = "" if r.trusted else "NOT TRUSTED: the last verification failed"
+        elif k == "stopping_time":
+            detail = "" if r.last_done else "never measured: no distance can be trusted"
+        elif k == "replacement":
+            detail = f"{r.text}: T10d = {self.t10d[r.n]:.1f} years"
+        elif k == "lockout":
+            detail = r.text
+        elif k == "shift_check":
+            detail = f"{r.n} shift check(s) missed since {r.due} (last {SHIFT_WINDOW_DAYS} days)"
+        elif k == "calibration":
+            detail = f"{r.text}{' (' + r.serial + ')' if r.serial else ''}" + (
+                "" if r.last_done else ": no calibration recorded"
+            )
+        else:
+            detail = ""
+        return DueItem(
+            machine=r.tag or "",
+            machine_id=r.machine_id,
+            machine_name=r.machine_name or "",
+            area=r.area or "",
+            safeguard=r.label,
+            safeguard_id=r.safeguard_id,
+            kind=k,
+            kind_label=LABELS[k],
+            last_done=r.last_done,
+            interval_days=r.interval_days,
+            due_date=r.due,
+            days_overdue=(self.today - r.due).days,
+            detail=detail,
+        )
+
+
+# every kind of item, in the order of the union (the items are sorted after)
+KIND_ORDER = (
+    "full_validation",
+    "functional_test",
+    "inspection",
+    "stopping_time",
+    "weekly_press",
+    "replacement",
+    "lockout",
+    "shift_check",
+    "calibration",
+)
+
+
+def _machines(site_id: int, area: str | None, machine_id: int | None) -> Any:
+    """The site's machines in service that pass the filters (a subquery of ids)."""
+    ids = select(Machine.id).where(Machine.site_id == site_id, Machine.active.is_(True))
+    if area:
+        ids = ids.join(Area, Area.id == Machine.area_id).where(Area.name == area)
+    if machine_id:
+        ids = ids.where(Machine.id == machine_id)
+    return ids
+
+
+def _working_runs(pattern: str, start: dt.date, n: int) -> list[tuple[dt.date, dt.date]]:
+    """The runs of consecutive working days (ISO weekdays in ``pattern``) among the
+    ``n`` days from ``start``, as (first, last) pairs."""
+    out: list[tuple[dt.date, dt.date]] = []
+    run: list[dt.date] = []
+    for i in range(n):
+        day = start + dt.timedelta(days=i)
+        if str(day.isoweekday()) in pattern:
+            run.append(day)
+        elif run:
+            out.append((run[0], run[-1]))
+            run = []
+    if run:
+        out.append((run[0], run[-1]))
+    return out
+
+
+def _duties(site_id: int, area: str | None, machine_id: int | None) -> Any:
+    """The distinct duties (B10d and usage) of the parts that may need replacing."""
+    ids = _machines(site_id, area, machine_id)
+    current = (
+        select(func.max(Assessment.id))
+        .where(Assessment.machine_id.in_(ids), Assessment.status != "superseded")
+        .group_by(Assessment.machine_id)
+    )
+    part = SafetyFunctionPart
+    return (
+        select(part.b10d, part.days_per_year, part.hours_per_day, part.cycle_time_s)
+        .join(SafetyFunction, SafetyFunction.id == part.safety_function_id)
+        .where(
+            SafetyFunction.assessment_id.in_(current),
+            part.b10d.is_not(None),
+            part.installed_on.is_not(None),
+        )
+        .distinct()
+    )
+
+
+def _query(
+    session: Session,
+    site: Site,
+    today: dt.date | None,
+    area: str | None,
+    machine_id: int | None,
+    kind: str | None,
+    within_days: int | None,
+) -> _DueQuery:
+    return _DueQuery(
+        session,
+        site,
+        today or dt.date.today(),
+        area=area,
+        machine_id=machine_id,
+        kind=kind,
+        within_days=within_days,
+    )
+
+
 def due_items(
     session: Session,
     site: Site,
@@ -94,289 +975,42 @@ def due_items(
     kind: str | None = None,
 ) -> list[DueItem]:
     """Every due item of a site, soonest first; ``within_days`` keeps those due by then."""
-    today = today or dt.date.today()
-    mq = (
-        select(Machine, Area.name)
-        .outerjoin(Area, Area.id == Machine.area_id)
-        .where(Machine.site_id == site.id, Machine.active.is_(True))
-    )
-    if area:
-        mq = mq.where(Area.name == area)
-    if machine_id:
-        mq = mq.where(Machine.id == machine_id)
-    machines = {m.id: (m, a or "") for m, a in session.execute(mq)}
-    ids = list(machines)
-    items: list[DueItem] = []
-
-    intervals: dict[tuple[int | None, str], int] = {
-        (r.safeguard_id, r.kind): r.days
-        for r in session.scalars(
-            select(VerificationInterval).where(VerificationInterval.site_id == site.id)
-        )
-    }
-
-    def interval(k: str, sg_id: int | None) -> int | None:
-        if (sg_id, k) in intervals:
-            return intervals[(sg_id, k)]
-        if (None, k) in intervals:
-            return intervals[(None, k)]
-        return KINDS[k].default_days
-
-    def add(
-        m: Machine | None,
-        sg: Safeguard | None,
-        k: str,
-        last: dt.date | None,
-        every: int | None,
-        due: dt.date,
-        detail: str = "",
-    ) -> None:
-        area_name = machines[m.id][1] if m is not None else ""
-        items.append(
-            DueItem(
-                machine=m.asset_tag if m else "",
-                machine_id=m.id if m else None,
-                machine_name=m.name if m else "",
-                area=area_name,
-                safeguard=sg.label if sg else None,
-                safeguard_id=sg.id if sg else None,
-                kind=k,
-                kind_label=LABELS[k],
-                last_done=last,
-                interval_days=every,
-                due_date=due,
-                days_overdue=(today - due).days,
-                detail=detail,
-            )
-        )
-
-    if ids:
-        guards = list(
-            session.scalars(
-                select(Safeguard)
-                .where(Safeguard.machine_id.in_(ids), Safeguard.status == "installed")
-                .order_by(Safeguard.id)
-            )
-        )
-        last_pass = {
-            (sid, k): d
-            for sid, k, d in session.execute(
-                select(
-                    Verification.safeguard_id,
-                    Verification.kind,
-                    func.max(Verification.performed_on),
-                )
-                .where(
-                    Verification.machine_id.in_(ids),
-                    Verification.result != "fail",
-                    Verification.safeguard_id.is_not(None),
-                )
-                .group_by(Verification.safeguard_id, Verification.kind)
-            )
-        }
-        modified: dict[int, dt.date] = {}
-        for made_on, sg_ids in session.execute(
-            select(Modification.made_on, Modification.safeguard_ids).where(
-                Modification.machine_id.in_(ids)
-            )
-        ):
-            for sid in sg_ids or []:
-                modified[sid] = max(modified.get(sid, made_on), made_on)
-        for sg in guards:
-            m = machines[sg.machine_id][0]
-            if sg.needs_revalidation:
-                since = modified.get(sg.id, today)
-                add(
-                    m,
-                    sg,
-                    "full_validation",
-                    last_pass.get((sg.id, "full_validation")),
-                    None,
-                    since,
-                    f"modified on {since}: validate the safety function again "
-                    "(ISO 13849-2) before relying on it",
-                )
-            for k in ("functional_test", "inspection"):
-                every = interval(k, sg.id)
-                if every is None:
-                    continue
-                last = last_pass.get((sg.id, k))
-                start = last or sg.created_at.date()
-                due = start + dt.timedelta(days=every) if last else start
-                add(
-                    m,
-                    sg,
-                    k,
-                    last,
-                    every,
-                    due,
-                    "" if sg.trusted else "NOT TRUSTED: the last verification failed",
-                )
-        # stopping time, per machine with a distance-dependent safeguard
-        needs_stop = {sg.machine_id for sg in guards if sg.kind in DISTANCE_KINDS}
-        last_stop = dict(
-            session.execute(
-                select(
-                    StoppingTimeMeasurement.machine_id,
-                    func.max(StoppingTimeMeasurement.measured_on),
-                )
-                .where(StoppingTimeMeasurement.machine_id.in_(ids))
-                .group_by(StoppingTimeMeasurement.machine_id)
-            ).all()
-        )
-        for mid in sorted(needs_stop):
-            m = machines[mid][0]
-            every = interval("stopping_time", None)
-            last = last_stop.get(mid)
-            due = last + dt.timedelta(days=every or 365) if last else m.created_at.date()
-            add(
-                m,
-                None,
-                "stopping_time",
-                last,
-                every,
-                due,
-                "" if last else "never measured: no distance can be trusted",
-            )
-        # weekly press inspection, mechanical presses not exempt by (b)(13) and (b)(14)
-        profiles = {
-            p.machine_id: p
-            for p in session.scalars(select(PressProfile).where(PressProfile.machine_id.in_(ids)))
-        }
-        last_weekly = dict(
-            session.execute(
-                select(Verification.machine_id, func.max(Verification.performed_on))
-                .where(
-                    Verification.machine_id.in_(ids),
-                    Verification.kind == "weekly_press",
-                    Verification.result != "fail",
-                )
-                .group_by(Verification.machine_id)
-            ).all()
-        )
-        for mid, (m, _a) in sorted(machines.items()):
-            if m.kind != "mechanical_press":
-                continue
-            p = profiles.get(mid)
-            if p is not None and p.brake_monitor and p.control_reliable:
-                continue
-            every = interval("weekly_press", None) or 7
-            last = last_weekly.get(mid)
-            due = last + dt.timedelta(days=every) if last else m.created_at.date()
-            add(m, None, "weekly_press", last, every, due)
-        # component replacement at T10d (parts of current assessments with a usage)
-        current = (
-            select(func.max(Assessment.id))
-            .where(Assessment.machine_id.in_(ids), Assessment.status != "superseded")
-            .group_by(Assessment.machine_id)
-        )
-        for part, machine_of in session.execute(
-            select(SafetyFunctionPart, Assessment.machine_id)
-            .join(SafetyFunction, SafetyFunction.id == SafetyFunctionPart.safety_function_id)
-            .join(Assessment, Assessment.id == SafetyFunction.assessment_id)
-            .where(
-                Assessment.id.in_(current),
-                SafetyFunctionPart.b10d.is_not(None),
-                SafetyFunctionPart.installed_on.is_not(None),
-            )
-        ):
-            try:
-                c = pl.component_mttfd(
-                    float(part.b10d),
-                    float(part.days_per_year or 0),
-                    float(part.hours_per_day or 0),
-                    float(part.cycle_time_s or 0),
-                )
-            except ValueError:
-                continue
-            due = part.installed_on + dt.timedelta(days=round(c.t10d_years * 365.25))
-            add(
-                machines[machine_of][0],
-                None,
-                "replacement",
-                part.installed_on,
-                None,
-                due,
-                f"{part.name}: T10d = {c.t10d_years:.1f} years",
-            )
-        for lp in session.scalars(
-            select(LockoutProcedure).where(LockoutProcedure.machine_id.in_(ids))
-        ):
-            m = machines[lp.machine_id][0]
-            last = lp.last_inspected_on
-            due = last + dt.timedelta(days=lp.interval_days) if last else m.created_at.date()
-            add(m, None, "lockout", last, lp.interval_days, due, lp.title)
-        # start-of-shift checks: one line per machine whose checks were missed
-        start = today - dt.timedelta(days=SHIFT_WINDOW_DAYS)
-        lists = {
-            c.machine_id: c
-            for c in session.scalars(
-                select(ShiftChecklist).where(ShiftChecklist.machine_id.in_(ids))
-            )
-        }
-        done: dict[int, set[tuple[dt.date, int]]] = {}
-        for mid, day, shift in session.execute(
-            select(ShiftCheck.machine_id, ShiftCheck.shift_date, ShiftCheck.shift).where(
-                ShiftCheck.machine_id.in_(list(lists)), ShiftCheck.shift_date >= start
-            )
-        ):
-            done.setdefault(mid, set()).add((day, shift))
-        for mid, cl in lists.items():
-            missed: list[dt.date] = []
-            day = max(start, cl.active_since)
-            while day < today:
-                if str(day.isoweekday()) in cl.working_days:
-                    for s in range(1, cl.shifts_per_day + 1):
-                        if (day, s) not in done.get(mid, set()):
-                            missed.append(day)
-                day += dt.timedelta(days=1)
-            if missed:
-                add(
-                    machines[mid][0],
-                    None,
-                    "shift_check",
-                    None,
-                    1,
-                    missed[0],
-                    f"{len(missed)} shift check(s) missed since {missed[0]} "
-                    f"(last {SHIFT_WINDOW_DAYS} days)",
-                )
-    if not machine_id and not area:
-        for ins in session.scalars(
-            select(Instrument).where(Instrument.site_id == site.id, Instrument.active.is_(True))
-        ):
-            last = ins.calibrated_on
-            due = last + dt.timedelta(days=ins.calibration_interval_days) if last else today
-            items.append(
-                DueItem(
-                    machine="",
-                    machine_id=None,
-                    machine_name="",
-                    area="",
-                    safeguard=None,
-                    safeguard_id=None,
-                    kind="calibration",
-                    kind_label=LABELS["calibration"],
-                    last_done=last,
-                    interval_days=ins.calibration_interval_days,
-                    due_date=due,
-                    days_overdue=(today - due).days,
-                    detail=f"{ins.name}{' (' + ins.serial + ')' if ins.serial else ''}"
-                    + ("" if last else ": no calibration recorded"),
-                )
-            )
-    if kind:
-        items = [i for i in items if i.kind == kind]
-    if within_days is not None:
-        limit = today + dt.timedelta(days=within_days)
-        items = [i for i in items if i.due_date <= limit]
-    items.sort(key=lambda i: (i.due_date, i.machine, i.safeguard or "", i.kind))
-    return items
+    return _query(session, site, today, area, machine_id, kind, within_days).items()
 
 
-def counts(items: list[DueItem]) -> dict[str, int]:
-    out = {"overdue": 0, "within 7 days": 0, "within 30 days": 0}
-    for i in items:
-        if i.status in out:
-            out[i.status] += 1
-    return out
+def due_summary(
+    session: Session,
+    site: Site,
+    *,
+    today: dt.date | None = None,
+    within_days: int | None = None,
+    area: str | None = None,
+    machine_id: int | None = None,
+    kind: str | None = None,
+) -> dict[str, int]:
+    """How many items there are of every status (STATUSES), in one statement."""
+    return _query(session, site, today, area, machine_id, kind, within_days).summary()
+
+
+def due_page(
+    session: Session,
+    site: Site,
+    *,
+    page: int = 1,
+    per_page: int = PAGE_SIZE,
+    today: dt.date | None = None,
+    within_days: int | None = None,
+    area: str | None = None,
+    machine_id: int | None = None,
+    kind: str | None = None,
+) -> DuePage:
+    """One page of :func:`due_items` (in the same order), with the counts of them all."""
+    q = _query(session, site, today, area, machine_id, kind, within_days)
+    page = max(1, page)
+    items, n = q.page(per_page, (page - 1) * per_page)
+    if n is None:  # past the last page, or nothing at all: count, then the last page
+        n = q.summary()
+        page = max(1, -(-sum(n.values()) // per_page))
+        items = q.page(per_page, (page - 1) * per_page)[0] if sum(n.values()) else []
+    total = sum(n.values())
+    return DuePage(items, n, total, page, max(1, -(-total // per_page)), per_page)

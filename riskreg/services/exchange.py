@@ -51,7 +51,7 @@ from sqlalchemy import (
 )
 from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import Session
-from sqlalchemy.sql.elements import ColumnElement
+from sqlalchemy.sql.elements import ClauseElement, ColumnElement
 
 from riskreg.model import (
     Area,
@@ -1826,6 +1826,25 @@ def _db_value(kind: Kind, name: str, v: Any) -> Any:
     return v
 
 
+def _batched_kinds() -> frozenset[str]:
+    """Kinds whose records can be inserted many at a time: nothing refers to them, and
+    they have no children, links or deferred references (a shift check, a rating)."""
+    targets = {r.target for k in KINDS.values() for r in k.refs}
+    targets |= {x.target for k in KINDS.values() for x in (*k.links, *k.json_refs)}
+    return frozenset(
+        name
+        for name, k in KINDS.items()
+        if k.parent is not None
+        and name not in targets
+        and not k.children
+        and not k.links
+        and not any(r.deferred for r in k.refs)
+    )
+
+
+BATCH_ROWS = 1000
+
+
 class _Writer:
     def __init__(self, session: Session) -> None:
         self.conn = session.connection()
@@ -1835,12 +1854,86 @@ class _Writer:
         self.components_reused = 0
         self.reused: set[str] = set()  # keys of library parts already in the register
         self.audit_kept = 0
+        # records waiting to be inserted together: kind → [(key, values)]
+        self.batched = _batched_kinds()
+        self.waiting: dict[str, list[tuple[str, dict[str, Any]]]] = {}
 
     def insert(self, table: Table, values: dict[str, Any]) -> int:
         result = self.conn.execute(insert(table), values)
         pk = result.inserted_primary_key
         assert pk is not None
         return int(pk[0])
+
+    def insert_later(self, kind: Kind, key: str, values: dict[str, Any]) -> None:
+        """Queue a record of a batched kind; one INSERT per BATCH_ROWS of them (a round
+        trip per record is what made an import slow on a database server)."""
+        rows = self.waiting.setdefault(kind.name, [])
+        rows.append((key, values))
+        if len(rows) >= BATCH_ROWS:
+            self.flush(kind.name)
+
+    def flush(self, kind_name: str | None = None) -> None:
+        """Insert the queued records (of one kind, or all) in the order they came, so
+        that their ids follow the document as when inserted one by one."""
+        for name in [kind_name] if kind_name else list(self.waiting):
+            rows = self.waiting.pop(name, [])
+            table = KINDS[name].table
+            start = 0
+            while start < len(rows):  # runs of records that set the same columns
+                columns = tuple(rows[start][1])
+                end = start
+                while end < len(rows) and tuple(rows[end][1]) == columns:
+                    end += 1
+                run = rows[start:end]
+                if self.conn.dialect.name == "postgresql":
+                    ids = self._insert_many_pg(table, columns, [v for _k, v in run])
+                else:
+                    result = self.conn.execute(
+                        insert(table).returning(table.c.id, sort_by_parameter_order=True),
+                        [v for _k, v in run],
+                    )
+                    ids = [int(i) for i in result.scalars()]
+                for (key, _values), new_id in zip(run, ids, strict=True):
+                    self.ids[key] = new_id
+                start = end
+
+    def _insert_many_pg(
+        self, table: Table, columns: tuple[str, ...], rows: list[dict[str, Any]]
+    ) -> list[int]:
+        """One short INSERT … RETURNING run for every row by the driver's executemany
+        (pipelined, prepared once): a multi-row INSERT of thousands of parameters is
+        parsed again on every run by the driver, which costs more than the rows."""
+        from psycopg.types.json import Json
+
+        cols = [table.c[c] for c in columns]
+        processors = [c.type.bind_processor(self.conn.dialect) for c in cols]
+        as_json = [isinstance(c.type, JSON) for c in cols]
+        params = []
+        for values in rows:
+            out = []
+            for c, proc, js in zip(columns, processors, as_json, strict=True):
+                v = values[c]
+                if js:
+                    v = None if v is None else Json(v)
+                elif proc is not None:
+                    v = proc(v)
+                out.append(v)
+            params.append(out)
+        names = ", ".join(f'"{c}"' for c in columns)
+        marks = ", ".join(["%s"] * len(columns))
+        sql = f'INSERT INTO "{table.name}" ({names}) VALUES ({marks}) RETURNING id'
+        dbapi = self.conn.connection.driver_connection
+        assert dbapi is not None
+        ids: list[int] = []
+        with dbapi.cursor() as cur:
+            cur.executemany(sql, params, returning=True)
+            while True:
+                row = cur.fetchone()
+                assert row is not None
+                ids.append(int(row[0]))
+                if not cur.nextset():
+                    break
+        return ids
 
     def people_in(self, people: Sequence[Mapping[str, str]], now: dt.datetime) -> list[str]:
         existing = {e.lower(): i for i, e in self.conn.execute(select(User.id, User.email)).all()}
@@ -1883,8 +1976,16 @@ class _Writer:
             values[kind.parent_column] = parent_id
         return values
 
-    def write(self, kind: Kind, rec: Mapping[str, Any], parent_id: int | None) -> int:
-        new_id = self.insert(kind.table, self.row(kind, rec, parent_id))
+    def write(self, kind: Kind, rec: Mapping[str, Any], parent_id: int | None) -> int | None:
+        """Insert a record and its children; a record of a batched kind is queued (its id,
+        None here, is known once flushed)."""
+        values = self.row(kind, rec, parent_id)
+        if kind.name in self.batched:
+            if not any(isinstance(v, ClauseElement) for v in values.values()):
+                self.insert_later(kind, rec["key"], values)
+                return None
+            self.flush(kind.name)  # the queued ones first: ids in the document's order
+        new_id = self.insert(kind.table, values)
         if kind.name != "site":
             self.ids[rec["key"]] = new_id
         for r in kind.refs:
@@ -1920,6 +2021,7 @@ class _Writer:
         self.ids[rec["key"]] = self.insert(table, values)
 
     def finish_deferred(self) -> None:
+        self.flush()
         for kind, new_id, column, key in self.deferred:
             self.conn.execute(
                 update(kind.table).where(kind.table.c.id == new_id).values({column: self.ids[key]})
@@ -2012,6 +2114,7 @@ def import_site(
         w = _Writer(session)
         report.people_created = w.people_in(doc.get("people", []), now)
         site_id = w.write(SITE, site_rec, None)
+        assert site_id is not None  # a site is never queued
         report.site_id = site_id
         for rec in doc.get("files", []):
             w.write(KINDS["file"], rec, None)

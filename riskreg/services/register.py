@@ -13,8 +13,9 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import case, func, select
-from sqlalchemy.orm import Session, selectinload
+from sqlalchemy import case, func, literal, select, union_all
+from sqlalchemy.orm import Session, contains_eager, joinedload, selectinload
+from sqlalchemy.orm.attributes import set_committed_value
 from sqlalchemy.orm.exc import StaleDataError
 
 from riskreg.engineering import risk
@@ -31,6 +32,8 @@ from riskreg.model import (
     Site,
     Task,
     User,
+    hazard_measure,
+    hazard_safety_function,
 )
 from riskreg.vocab import (
     HAZARD_GROUPS,
@@ -1001,24 +1004,58 @@ def _current_assessment_ids(site_id: int) -> Any:
     )
 
 
-def site_overview(
-    session: Session, site: Site, search: str = "", include_retired: bool = False
-) -> list[MachineRow]:
-    """Machines by area with counts, in a fixed number of set-based queries."""
+OVERVIEW_PAGE_SIZE = 100  # machines per page of the site overview
+
+
+@dataclass(frozen=True)
+class OverviewPage:
+    """One page of a site's machines, by area, with the number of them all."""
+
+    rows: list[MachineRow]
+    total: int  # machines that match, over all pages
+    page: int  # 1-based; a page past the end is brought back to the last one
+    pages: int
+    per_page: int
+
+
+def _overview_query(site: Site, search: str, include_retired: bool, pg: bool) -> Any:
+    """The site's machines that match, by area (machines without one last), then tag."""
+
+    def text_key(expr: Any) -> Any:
+        return expr.collate("C") if pg else expr  # code-point order, as Python sorts
+
     q = (
         select(Machine)
+        .outerjoin(Area, Area.id == Machine.area_id)
         .where(Machine.site_id == site.id)
-        .options(selectinload(Machine.area))
-        .order_by(Machine.asset_tag)
+        .order_by(Area.name.is_(None), text_key(Area.name), text_key(Machine.asset_tag))
     )
     if not include_retired:
         q = q.where(Machine.active.is_(True))
     if search:
         like = f"%{search.strip().lower()}%"
         q = q.where(func.lower(Machine.asset_tag).like(like) | func.lower(Machine.name).like(like))
-    machines = list(session.scalars(q))
-    current = _current_assessment_ids(site.id)
+    return q
 
+
+def _overview_rows(
+    session: Session, site: Site, machines: list[Machine], only_these: bool
+) -> list[MachineRow]:
+    """Counts and levels of the machines, in three set-based queries (over the given
+    machines when ``only_these``, else over the whole site)."""
+    if not machines:
+        return []
+    current = _current_assessment_ids(site.id)
+    if only_these:
+        current = (
+            select(func.max(Assessment.id))
+            .where(
+                Assessment.machine_id.in_([m.id for m in machines]),
+                Assessment.status != "superseded",
+            )
+            .group_by(Assessment.machine_id)
+            .scalar_subquery()
+        )
     hazard_counts = dict(
         session.execute(
             select(Assessment.machine_id, func.count(Hazard.id))
@@ -1073,8 +1110,51 @@ def site_overview(
                 proposed_measures=int(proposed.get(m.id) or 0),
             )
         )
-    rows.sort(key=lambda r: (r.area_name == "", r.area_name, r.machine.asset_tag))
     return rows
+
+
+def site_overview(
+    session: Session, site: Site, search: str = "", include_retired: bool = False
+) -> list[MachineRow]:
+    """Machines by area with counts, in a fixed number of set-based queries."""
+    pg = session.get_bind().dialect.name == "postgresql"
+    q = _overview_query(site, search, include_retired, pg).options(contains_eager(Machine.area))
+    machines = list(session.scalars(q))
+    return _overview_rows(session, site, machines, only_these=False)
+
+
+def site_overview_page(
+    session: Session,
+    site: Site,
+    search: str = "",
+    include_retired: bool = False,
+    *,
+    page: int = 1,
+    per_page: int = OVERVIEW_PAGE_SIZE,
+) -> OverviewPage:
+    """One page of :func:`site_overview` (same order, same rows), with the total."""
+    pg = session.get_bind().dialect.name == "postgresql"
+    q = _overview_query(site, search, include_retired, pg)
+    total = int(session.scalar(q.with_only_columns(func.count(Machine.id)).order_by(None)) or 0)
+    pages = max(1, -(-total // per_page))
+    page = min(max(1, page), pages)
+    q = q.options(contains_eager(Machine.area)).limit(per_page).offset((page - 1) * per_page)
+    machines = list(session.scalars(q))
+    return OverviewPage(
+        _overview_rows(session, site, machines, only_these=True), total, page, pages, per_page
+    )
+
+
+def machines_in_service(session: Session, site: Site) -> list[Any]:
+    """Id, asset tag and name of a site's machines in service, by asset tag (for a list
+    to choose from; one light query rather than the machine records)."""
+    return list(
+        session.execute(
+            select(Machine.id, Machine.asset_tag, Machine.name)
+            .where(Machine.site_id == site.id, Machine.active.is_(True))
+            .order_by(Machine.asset_tag)
+        )
+    )
 
 
 def list_machines(session: Session, site: Site | None = None) -> list[Machine]:
@@ -1082,6 +1162,80 @@ def list_machines(session: Session, site: Site | None = None) -> list[Machine]:
     if site is not None:
         q = q.where(Machine.site_id == site.id)
     return list(session.scalars(q.order_by(Machine.site_id, Machine.asset_tag)))
+
+
+def load_machine_page(session: Session, machine_id: int) -> Machine:
+    """A machine with what its page shows of its revisions (tasks, hazards with their
+    ratings and measures, safety functions and their hazards, measures and their
+    hazards), in a fixed number of queries: none per hazard, measure or function when
+    the page is drawn.
+
+    The two many-to-many links (hazard–measure, hazard–function) are read in one query
+    by hazard (the first column of each link table's key) and set on both sides, rather
+    than joined: a join through a link table makes SQLite read the whole table. (A
+    measure's or function's hazards are of its own assessment: the services and the
+    import check it.)"""
+    machine = session.scalar(
+        select(Machine)
+        .where(Machine.id == machine_id)
+        .options(
+            joinedload(Machine.site),
+            joinedload(Machine.area),
+            joinedload(Machine.photo),
+            selectinload(Machine.assessments).options(
+                joinedload(Assessment.approver),
+                joinedload(Assessment.tasks),
+                selectinload(Assessment.hazards).options(
+                    joinedload(Hazard.ratings),
+                    joinedload(Hazard.residual_accepted_by),
+                    joinedload(Hazard.photo),
+                ),
+                selectinload(Assessment.safety_functions),
+                selectinload(Assessment.measures).joinedload(ProtectiveMeasure.safety_function),
+            ),
+        )
+    )
+    if machine is None:
+        raise NotFound(f"No machine number {machine_id}.")
+    hazards = {h.id: h for a in machine.assessments for h in a.hazards}
+    measures = {m.id: m for a in machine.assessments for m in a.measures}
+    functions = {f.id: f for a in machine.assessments for f in a.safety_functions}
+    if not hazards:
+        for x in (*measures.values(), *functions.values()):
+            set_committed_value(x, "hazards", [])
+        return machine
+    hm, hsf = hazard_measure.c, hazard_safety_function.c
+    links = session.execute(
+        union_all(
+            select(literal("m").label("side"), hm.hazard_id, hm.measure_id.label("other")).where(
+                hm.hazard_id.in_(list(hazards))
+            ),
+            select(
+                literal("f").label("side"), hsf.hazard_id, hsf.safety_function_id.label("other")
+            ).where(hsf.hazard_id.in_(list(hazards))),
+        )
+    ).all()
+    on_hazard: dict[int, list[int]] = {h: [] for h in hazards}
+    on_measure: dict[int, list[int]] = {m: [] for m in measures}
+    on_function: dict[int, list[int]] = {f: [] for f in functions}
+    unknown = False
+    for side, hazard_id, other in links:
+        if side == "m":
+            on_hazard[hazard_id].append(other)
+            if other in on_measure:
+                on_measure[other].append(hazard_id)
+            else:
+                unknown = True  # linked to a measure of another machine: leave it lazy
+        elif other in on_function:
+            on_function[other].append(hazard_id)
+    for h_id, ids in on_hazard.items():
+        if not unknown:
+            set_committed_value(hazards[h_id], "measures", [measures[i] for i in sorted(ids)])
+    for m_id, ids in on_measure.items():
+        set_committed_value(measures[m_id], "hazards", [hazards[i] for i in sorted(ids)])
+    for f_id, ids in on_function.items():
+        set_committed_value(functions[f_id], "hazards", [hazards[i] for i in sorted(ids)])
+    return machine
 
 
 def load_machine(session: Session, machine_id: int) -> Machine:

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, joinedload
 
 from riskreg.engineering import distance, espe, interlock, pl, stopping, two_hand, us_distance
 from riskreg.engineering.derivation import InputError, Result
@@ -375,7 +375,15 @@ def save_press_profile(session: Session, machine: Machine, data: Mapping[str, An
 def press_profile(machine: Machine) -> PressProfile | None:
     session = Session.object_session(machine)
     assert session is not None
-    return session.scalar(select(PressProfile).where(PressProfile.machine_id == machine.id))
+    return (
+        session.execute(
+            select(PressProfile)
+            .where(PressProfile.machine_id == machine.id)
+            .options(joinedload(PressProfile.monitor_settings))
+        )
+        .unique()
+        .scalar_one_or_none()
+    )
 
 
 def add_monitor_setting(
@@ -781,8 +789,9 @@ def measurements_of(machine: Machine) -> list[StoppingTimeMeasurement]:
         session.scalars(
             select(StoppingTimeMeasurement)
             .where(StoppingTimeMeasurement.machine_id == machine.id)
+            .options(joinedload(StoppingTimeMeasurement.checks))
             .order_by(StoppingTimeMeasurement.measured_on.desc(), StoppingTimeMeasurement.id.desc())
-        )
+        ).unique()
     )
 
 

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, joinedload
 
 from riskreg.model import (
     CalendarToken,
@@ -285,11 +285,12 @@ def verifications_of(
     q = (
         select(Verification)
         .where(Verification.machine_id == machine.id)
+        .options(joinedload(Verification.evidence))
         .order_by(Verification.performed_on.desc(), Verification.id.desc())
     )
     if limit:
         q = q.limit(limit)
-    return list(session.scalars(q))
+    return list(session.scalars(q).unique())
 
 
 # --- start-of-shift checks -------------------------------------------------------------

@@ -84,18 +84,20 @@ def _area_choices(form: MachineForm, site: Site) -> None:
 
 @bp.route("/machines/<int:machine_id>")
 def machine(machine_id: int) -> Any:
-    m = get_machine(machine_id)
+    m = register.load_machine_page(db(), machine_id)  # the revisions' records, eagerly
     a = register.current_assessment(m)
     hazards = [h for h in a.hazards if not h.archived]
     by_task: dict[int | None, list[Any]] = {}
     for h in hazards:
         by_task.setdefault(h.task_id, []).append(h)
     functions = [(f, register.required_level(f)) for f in a.safety_functions if not f.archived]
-    latest = safeguards.latest_measurement(m)
+    measurements = safeguards.measurements_of(m)
+    latest = measurements[0] if measurements else None
     profile = safeguards.press_profile(m)
+    records = safeguards.safeguards_of(m)
     guards = [
         safeguards.evaluate(s, latest.t_used_s if latest else None, m.site.distance_method, profile)
-        for s in safeguards.safeguards_of(m)
+        for s in records
     ]
     actions = safeguards.actions_of(db(), m)
     from .trust import machine_context
@@ -113,11 +115,11 @@ def machine(machine_id: int) -> Any:
         current_rating=register.current_rating,
         guards=guards,
         latest=latest,
-        measurements=safeguards.measurements_of(m)[:5],
+        measurements=measurements[:5],
         actions=actions,
         profile=profile,
         title=f"{m.asset_tag} {m.name}",
-        **machine_context(m),
+        **machine_context(m, records),
     )
 
 

@@ -34,17 +34,21 @@ def site(site_id: int) -> Any:
     if s is None:
         raise NotFound(f"No site number {site_id}.")
     q = request.args.get("q", "")[:100]
-    rows = register.site_overview(db(), s, q)
+    # one page of machines (the counts are of them all); a bad page number shows the first
+    view = register.site_overview_page(db(), s, q, page=request.args.get("page", 1, type=int))
     areas: dict[str, list[register.MachineRow]] = {}
-    for r in rows:
+    for r in view.rows:
         areas.setdefault(r.area_name or "No area", []).append(r)
+    due_counts = due.due_summary(db(), s)
     return render_template(
         "overview.html",
         site=s,
         sites=all_sites(),
         areas=areas,
         q=q,
-        total=len(rows),
-        due_counts=due.counts(due.due_items(db(), s)),
+        total=view.total,
+        view=view,
+        due_counts=due_counts,
+        due_pages={k: due.page_of(due_counts, k) for k in due.STATUSES},
         title=s.name,
     )

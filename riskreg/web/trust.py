@@ -105,10 +105,11 @@ def lockout_rows(procs: list[LockoutProcedure]) -> list[dict[str, Any]]:
     return rows
 
 
-def machine_context(m: Machine) -> dict[str, Any]:
-    """What the machine page shows of verification, checks and lockout."""
+def machine_context(m: Machine, guards: list[Safeguard] | None = None) -> dict[str, Any]:
+    """What the machine page shows of verification, checks and lockout (``guards``: the
+    machine's safeguards when the page has them already)."""
     s = db()
-    guards = safeguards.safeguards_of(m)
+    guards = safeguards.safeguards_of(m) if guards is None else guards
     return {
         "untrusted": [g for g in guards if g.status == "installed" and not g.trusted],
         "verifications": verification.verifications_of(s, m, limit=10),
@@ -293,9 +294,9 @@ def verification_page(verification_id: int) -> Any:
 # --- the due board ---------------------------------------------------------------------
 
 
-def _due_filters(site: Site) -> tuple[dict[str, Any], list[str], list[Machine]]:
+def _due_filters(site: Site) -> tuple[dict[str, Any], list[str], list[Any]]:
     """The board's filters from the query string; bad values become messages."""
-    machines = [m for m in register.list_machines(db(), site) if m.active]
+    machines = register.machines_in_service(db(), site)  # id, asset tag and name of each
     problems: list[str] = []
     out: dict[str, Any] = {"area": None, "machine_id": None, "kind": None}
     area = request.args.get("area", "").strip()
@@ -360,18 +361,20 @@ def due_link(item: due.DueItem, site_id: int) -> tuple[str, str] | None:
 def due_board(site_id: int) -> Any:
     site = get_site(site_id)
     filters, problems, machines = _due_filters(site)
-    items = due.due_items(db(), site, **filters)
+    # one page of the items (soonest first); the counts are of them all
+    view = due.due_page(db(), site, page=request.args.get("page", 1, type=int), **filters)
     groups: dict[str, list[tuple[due.DueItem, tuple[str, str] | None]]] = {
         key: [] for key, _t, _a in SECTIONS
     }
-    for i in items:
+    for i in view.items:
         groups[i.status].append((i, due_link(i, site.id)))
     return render_template(
         "due_board.html",
         site=site,
         groups=groups,
         sections=SECTIONS,
-        counts=due.counts(items),
+        counts=view.counts,
+        view=view,
         problems=problems,
         filters=filters,
         machines=machines,
