@@ -260,3 +260,32 @@ def test_statements_per_page_do_not_grow_with_the_register(
     html = client[0].get(PAGES["due board"](large)).get_data(as_text=True)
     assert "Page 1 of" in html, "the large site's due board should need more than one page"
     assert _count(client, PAGES["due board"](large) + "?page=2") == counts["due board"][1]
+
+
+def test_the_pages_of_the_due_board_hold_every_item_once_in_order(
+    engine: Engine, registers: tuple[Built, Built]
+) -> None:
+    """The board's pages, one after the other, are the full list of due items (the one
+    the CLI, the reports and the calendar use), and their counts are its counts."""
+    from riskreg.model import Site
+    from riskreg.services import due
+
+    _small, large = registers
+    with session_factory(engine)() as s:
+        site = s.get(Site, large.site_id)
+        assert site is not None
+        everything = due.due_items(s, site)
+        first = due.due_page(s, site, per_page=40)
+        assert first.pages == -(-len(everything) // 40) and first.pages > 1
+        paged = [
+            i
+            for n in range(1, first.pages + 1)
+            for i in due.due_page(s, site, page=n, per_page=40).items
+        ]
+        assert paged == everything
+        assert first.counts == due.due_summary(s, site)
+        assert {k: first.counts[k] for k in due.counts(everything)} == due.counts(everything)
+        assert first.total == len(everything)
+        # a page past the end shows the last one
+        last = due.due_page(s, site, page=first.pages + 5, per_page=40)
+        assert last.page == first.pages and last.items == paged[(first.pages - 1) * 40 :]
