@@ -27,7 +27,7 @@ typecheck: $(STAMP)
 # RISKREG_TEST_POSTGRES_URL names a server (.ci/run starts one). The browser tests
 # drive the demo on SQLite, so the PostgreSQL pass leaves them out.
 unit: $(STAMP)
-	$(BIN)/pytest --cov=riskreg --cov-report= $(PYTEST_ARGS)
+	env -u RISKREG_TEST_POSTGRES_URL $(BIN)/pytest --cov=riskreg --cov-report= $(PYTEST_ARGS)
 	$(BIN)/coverage report --include='riskreg/engineering/*' --fail-under=95 --show-missing
 	@if [ -n "$${RISKREG_TEST_POSTGRES_URL:-}" ]; then \
 	  echo "--- the suite again on PostgreSQL ---"; \

@@ -46,7 +46,8 @@ def db_url(tmp_path: Path) -> Iterator[str]:
         admin.dispose()
 
 
-TEMPLATE = "riskreg_template_head"
+# One template per test session, so that sessions run side by side never share it.
+TEMPLATE = "riskreg_tpl_" + uuid.uuid4().hex[:10]
 
 
 @pytest.fixture(scope="session")
