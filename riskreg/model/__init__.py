@@ -691,3 +691,49 @@ class Modification(Base):
     created_at: Mapped[dt.datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
 
     machine: Mapped[Machine] = relationship()
+
+
+# --- what is due, as last worked out -------------------------------------------------------
+
+
+class DueItemRow(Base):
+    """A due item as :mod:`riskreg.services.due` last worked it out: a derived copy,
+    kept current by a session hook on every write that touches what it is computed from
+    and worked out again for a whole site on the first read of each day. Not audited,
+    not exported: it can always be computed again from the register."""
+
+    __tablename__ = "due_item"
+    __table_args__ = (Index("ix_due_item_order", "site_id", "due"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("site.id", ondelete="CASCADE"))
+    machine_id: Mapped[int | None] = mapped_column(
+        ForeignKey("machine.id", ondelete="CASCADE"), index=True
+    )
+    due: Mapped[dt.date] = mapped_column()
+    kind: Mapped[str] = mapped_column(String(30))
+    safeguard_id: Mapped[int | None] = mapped_column(Integer)
+    last_done: Mapped[dt.date | None] = mapped_column()
+    interval_days: Mapped[int | None] = mapped_column(Integer)
+    tag: Mapped[str | None] = mapped_column(String(40))
+    label: Mapped[str | None] = mapped_column(String(200))
+    machine_name: Mapped[str | None] = mapped_column(String(120))
+    area: Mapped[str | None] = mapped_column(String(120))
+    text: Mapped[str | None] = mapped_column(Text)
+    serial: Mapped[str | None] = mapped_column(String(120))
+    n: Mapped[int | None] = mapped_column(Integer)
+    trusted: Mapped[bool | None] = mapped_column(Boolean)
+    ref: Mapped[int | None] = mapped_column(Integer)
+    years: Mapped[float | None] = mapped_column(Float)
+
+
+class DueRefresh(Base):
+    """The day a site's stored due items were last worked out for in full; none, or an
+    earlier day, means they must be worked out again before they are read."""
+
+    __tablename__ = "due_refresh"
+
+    site_id: Mapped[int] = mapped_column(
+        ForeignKey("site.id", ondelete="CASCADE"), primary_key=True
+    )
+    computed_for: Mapped[dt.date | None] = mapped_column()

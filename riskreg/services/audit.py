@@ -172,9 +172,13 @@ def _after_flush(session: Session, _ctx: Any) -> None:
 
 
 def install(factory: sessionmaker[Session]) -> None:
-    """Put the audit hooks on every session the factory makes."""
+    """Put the session hooks on every session the factory makes: the audit trail, and
+    the stored due items kept current (:mod:`riskreg.services.due`)."""
+    from . import due  # due reads this module's _place
+
     event.listen(factory, "before_flush", _before_flush)
     event.listen(factory, "after_flush", _after_flush)
+    due.install(factory)
 
 
 def set_actor(session: Session, user: User | None) -> None:

@@ -24,6 +24,7 @@ from typing import Any
 
 from sqlalchemy import (
     Boolean,
+    Connection,
     Date,
     Float,
     Integer,
@@ -32,21 +33,30 @@ from sqlalchemy import (
     bindparam,
     case,
     cast,
+    delete,
+    event,
     func,
+    insert,
+    inspect,
     literal,
     null,
     or_,
     select,
     type_coerce,
     union_all,
+    update,
 )
 from sqlalchemy.dialects.postgresql import JSONB
-from sqlalchemy.orm import Session, aliased
+from sqlalchemy.dialects.postgresql import insert as pg_insert
+from sqlalchemy.dialects.sqlite import insert as sqlite_insert
+from sqlalchemy.orm import Session, aliased, sessionmaker
 
 from riskreg.engineering import pl
 from riskreg.model import (
     Area,
     Assessment,
+    DueItemRow,
+    DueRefresh,
     Instrument,
     LockoutProcedure,
     Machine,
@@ -63,6 +73,7 @@ from riskreg.model import (
     VerificationInterval,
 )
 
+from .audit import _place
 from .safeguards import DISTANCE_KINDS
 from .verification import KINDS
 
@@ -228,6 +239,7 @@ COLUMNS = (
     ("n", Integer),
     ("trusted", Boolean),
     ("ref", Integer),
+    ("years", Float),  # T10d of a part to replace
 )
 
 
@@ -251,7 +263,7 @@ class _Shape:
     pg: bool
     kinds: tuple[str, ...]
     area: bool
-    machine: bool
+    machines: bool  # only the machines of a list (bound, expanding)
     within: bool
     calendar_free: tuple[str, ...]  # per-safeguard kinds with no interval at the site
     duties: int
@@ -277,8 +289,8 @@ class _Build:
             q = q.join(Area, Area.id == Machine.area_id).where(
                 Area.name == bindparam("area", type_=String)
             )
-        if self.shape.machine:
-            q = q.where(Machine.id == bindparam("machine_id", type_=Integer))
+        if self.shape.machines:
+            q = q.where(Machine.id.in_(bindparam("machine_ids", expanding=True)))
         return q
 
     @staticmethod
@@ -474,7 +486,9 @@ class _Build:
             )
             for i in range(self.shape.duties)
         ]
-        which = case(*[(cond, literal(i)) for i, cond in enumerate(same)])
+        years = case(
+            *[(cond, self.d.value(f"duty_years_{i}", Float)) for i, cond in enumerate(same)]
+        )
         days = case(
             *[(cond, self.d.value(f"duty_days_{i}", Integer)) for i, cond in enumerate(same)]
         )
@@ -484,7 +498,7 @@ class _Build:
                 kind=literal("replacement"),
                 last_done=part.installed_on,
                 text=part.name,
-                n=which,
+                years=years,
                 ref=part.id,
                 **self._machine_cols(m, a),
             )
@@ -698,29 +712,36 @@ class _Build:
                 for i, cond in enumerate(by_status)
             ]
         )
-        return ordered, counts, paged
+        return ordered, counts, paged, select(u).where(u.c.due.is_not(None))
+
+
+def _dialect(conn: Session | Connection) -> str:
+    bind = conn.get_bind() if isinstance(conn, Session) else conn
+    return str(bind.dialect.name)
 
 
 class _DueQuery:
-    """One computation: the statements for its shape and the values they are run with."""
+    """The due items worked out from the register itself: the statements for their
+    shape and the values they are run with. On a session or a connection."""
 
     def __init__(
         self,
-        session: Session,
-        site: Site,
+        conn: Session | Connection,
+        site_id: int,
         today: dt.date,
         *,
         area: str | None,
-        machine_id: int | None,
+        machine_ids: list[int] | None,
         kind: str | None,
         within_days: int | None,
     ) -> None:
-        self.session = session
+        self.conn = conn
         self.today = today
+        vi = VerificationInterval
         intervals: dict[tuple[int | None, str], int] = {
-            (r.safeguard_id, r.kind): r.days
-            for r in session.scalars(
-                select(VerificationInterval).where(VerificationInterval.site_id == site.id)
+            (sg, k): days
+            for sg, k, days in conn.execute(
+                select(vi.safeguard_id, vi.kind, vi.days).where(vi.site_id == site_id)
             )
         }
 
@@ -731,12 +752,12 @@ class _DueQuery:
             return KINDS[k].default_days
 
         kinds = [k for k in KIND_ORDER if kind is None or kind == k]
-        if machine_id or area:
+        if machine_ids is not None or area:
             kinds = [k for k in kinds if k != "calibration"]  # site items, not a machine's
         start = today - dt.timedelta(days=SHIFT_WINDOW_DAYS)
         stop_every = site_interval("stopping_time")
         params: dict[str, Any] = {
-            "site_id": site.id,
+            "site_id": site_id,
             "today": today,
             "week": today + dt.timedelta(days=7),
             "month": today + dt.timedelta(days=30),
@@ -756,13 +777,15 @@ class _DueQuery:
             params[f"days_{k}"] = every
         if area:
             params["area"] = area
-        if machine_id:
-            params["machine_id"] = machine_id
+        if machine_ids is not None:
+            params["machine_ids"] = list(machine_ids)
+            if not machine_ids:
+                kinds = []
         if within_days is not None:
             params["limit"] = today + dt.timedelta(days=within_days)
-        self.t10d: dict[int, float] = {}  # T10d in years of each component duty
+        duties = 0  # distinct component duties (B10d and usage) with a T10d
         if "replacement" in kinds:
-            for b10d, dop, hop, tc in session.execute(_duties(site.id, area, machine_id)):
+            for b10d, dop, hop, tc in conn.execute(_duties(site_id, area, machine_ids)):
                 if None in (b10d, dop, hop, tc):
                     continue  # refused by the engineering core, as an empty duty would be
                 try:
@@ -771,8 +794,8 @@ class _DueQuery:
                     continue
                 if not math.isfinite(years) or years > MAX_T10D_YEARS:
                     continue
-                i = len(self.t10d)
-                self.t10d[i] = years
+                i = duties
+                duties += 1
                 params.update(
                     {
                         f"b10d_{i}": b10d,
@@ -780,14 +803,15 @@ class _DueQuery:
                         f"hop_{i}": hop,
                         f"tc_{i}": tc,
                         f"duty_days_{i}": round(years * 365.25),
+                        f"duty_years_{i}": years,
                     }
                 )
-            if not self.t10d:
+            if not duties:
                 kinds.remove("replacement")
         runs = 0
         if "shift_check" in kinds:
-            ids = _machines(site.id, area, machine_id)
-            patterns = session.scalars(
+            ids = _machines(site_id, area, machine_ids)
+            patterns = conn.scalars(
                 select(ShiftChecklist.working_days)
                 .where(ShiftChecklist.machine_id.in_(ids))
                 .distinct()
@@ -805,13 +829,13 @@ class _DueQuery:
         if self.empty:
             return
         shape = _Shape(
-            pg=session.get_bind().dialect.name == "postgresql",
+            pg=_dialect(conn) == "postgresql",
             kinds=tuple(kinds),
             area=bool(area),
-            machine=bool(machine_id),
+            machines=machine_ids is not None,
             within=within_days is not None,
             calendar_free=tuple(free),
-            duties=len(self.t10d),
+            duties=duties,
             runs=runs,
         )
         built = _STATEMENTS.get(shape)
@@ -819,67 +843,150 @@ class _DueQuery:
             if len(_STATEMENTS) > 256:
                 _STATEMENTS.clear()
             built = _STATEMENTS[shape] = _Build(shape).union()
-        self.ordered, self.counts, self.paged = built
+        self.ordered, self.counts, self.paged, self.rows = built
 
     def summary(self) -> dict[str, int]:
         if self.empty:
             return dict.fromkeys(STATUSES, 0)
-        row = self.session.execute(self.counts, self.params).one()
+        row = self.conn.execute(self.counts, self.params).one()
         return {s: int(v) for s, v in zip(STATUSES, row, strict=True)}
 
     def items(self) -> list[DueItem]:
         if self.empty:
             return []
-        return [self.item(r) for r in self.session.execute(self.ordered, self.params)]
+        return [_item(r, self.today) for r in self.conn.execute(self.ordered, self.params)]
 
     def page(self, limit: int, offset: int) -> tuple[list[DueItem], dict[str, int] | None]:
         """A page of the items and the counts of them all (None when the page is empty)."""
         if self.empty:
             return [], dict.fromkeys(STATUSES, 0)
-        rows = list(self.session.execute(self.paged.limit(limit).offset(offset), self.params))
+        rows = list(self.conn.execute(self.paged.limit(limit).offset(offset), self.params))
         if not rows:
             return [], None
         n = {s: int(rows[0]._mapping[f"count_{i}"]) for i, s in enumerate(STATUSES)}
-        return [self.item(r) for r in rows], n
+        return [_item(r, self.today) for r in rows], n
 
-    def item(self, r: Any) -> DueItem:
-        k = r.kind
-        if k == "full_validation":
-            detail = (
-                f"modified on {r.due}: validate the safety function again "
-                "(ISO 13849-2) before relying on it"
-            )
-        elif k in ("functional_test", "inspection"):
-            detail = "" if r.trusted else "NOT TRUSTED: the last verification failed"
-        elif k == "stopping_time":
-            detail = "" if r.last_done else "never measured: no distance can be trusted"
-        elif k == "replacement":
-            detail = f"{r.text}: T10d = {self.t10d[r.n]:.1f} years"
-        elif k == "lockout":
-            detail = r.text
-        elif k == "shift_check":
-            detail = f"{r.n} shift check(s) missed since {r.due} (last {SHIFT_WINDOW_DAYS} days)"
-        elif k == "calibration":
-            detail = f"{r.text}{' (' + r.serial + ')' if r.serial else ''}" + (
-                "" if r.last_done else ": no calibration recorded"
-            )
-        else:
-            detail = ""
-        return DueItem(
-            machine=r.tag or "",
-            machine_id=r.machine_id,
-            machine_name=r.machine_name or "",
-            area=r.area or "",
-            safeguard=r.label,
-            safeguard_id=r.safeguard_id,
-            kind=k,
-            kind_label=LABELS[k],
-            last_done=r.last_done,
-            interval_days=r.interval_days,
-            due_date=r.due,
-            days_overdue=(self.today - r.due).days,
-            detail=detail,
+    def store(self, site_id: int) -> None:
+        """Insert the items, as they are now, into the stored ones (``due_item``)."""
+        if self.empty:
+            return
+        u = self.rows.subquery("worked_out")
+        names = [name for name, _typ in COLUMNS]
+        self.conn.execute(
+            insert(DueItemRow.__table__).from_select(
+                ["site_id", *names],
+                select(
+                    _Dates(_dialect(self.conn) == "postgresql").value("site_id", Integer),
+                    *[u.c[name] for name in names],
+                ),
+            ),
+            self.params,
         )
+
+
+class _Stored:
+    """The due items as stored (``due_item``): the same answers as :class:`_DueQuery`
+    for the same day, read from one table."""
+
+    def __init__(
+        self,
+        session: Session,
+        site_id: int,
+        today: dt.date,
+        *,
+        area: str | None,
+        machine_id: int | None,
+        kind: str | None,
+        within_days: int | None,
+    ) -> None:
+        self.session = session
+        self.today = today
+        t = DueItemRow
+        cond = [t.site_id == site_id]
+        if area:
+            cond.append(t.area == area)
+        if machine_id:
+            cond.append(t.machine_id == machine_id)
+        if kind:
+            cond.append(t.kind == kind)
+        if within_days is not None:
+            cond.append(t.due <= today + dt.timedelta(days=within_days))
+        d = _Dates(_dialect(session) == "postgresql")
+        self.ordered = (
+            select(*[getattr(t, name) for name, _typ in COLUMNS])
+            .where(*cond)
+            .order_by(
+                t.due,
+                d.text_key(func.coalesce(t.tag, "")),
+                d.text_key(func.coalesce(t.label, "")),
+                d.text_key(t.kind),
+                t.ref,
+            )
+        )
+        week, month = today + dt.timedelta(days=7), today + dt.timedelta(days=30)
+        by_status = (
+            t.due < today,
+            and_(t.due >= today, t.due <= week),
+            and_(t.due > week, t.due <= month),
+            t.due > month,
+        )
+        self.counts = select(
+            *[func.coalesce(func.sum(case((c, 1), else_=0)), 0) for c in by_status]
+        ).where(*cond)
+
+    def summary(self) -> dict[str, int]:
+        row = self.session.execute(self.counts).one()
+        return {s: int(v) for s, v in zip(STATUSES, row, strict=True)}
+
+    def items(self) -> list[DueItem]:
+        return [_item(r, self.today) for r in self.session.execute(self.ordered)]
+
+    def page(self, limit: int, offset: int) -> tuple[list[DueItem], dict[str, int] | None]:
+        rows = list(self.session.execute(self.ordered.limit(limit).offset(offset)))
+        if not rows:
+            return [], None
+        return [_item(r, self.today) for r in rows], self.summary()
+
+
+def _item(r: Any, today: dt.date) -> DueItem:
+    """A due item from a row of either reading."""
+    k = r.kind
+    if k == "full_validation":
+        detail = (
+            f"modified on {r.due}: validate the safety function again "
+            "(ISO 13849-2) before relying on it"
+        )
+    elif k in ("functional_test", "inspection"):
+        detail = "" if r.trusted else "NOT TRUSTED: the last verification failed"
+    elif k == "stopping_time":
+        detail = "" if r.last_done else "never measured: no distance can be trusted"
+    elif k == "replacement":
+        detail = f"{r.text}: T10d = {r.years:.1f} years"
+    elif k == "lockout":
+        detail = r.text
+    elif k == "shift_check":
+        detail = f"{r.n} shift check(s) missed since {r.due} (last {SHIFT_WINDOW_DAYS} days)"
+    elif k == "calibration":
+        detail = f"{r.text}{' (' + r.serial + ')' if r.serial else ''}" + (
+            "" if r.last_done else ": no calibration recorded"
+        )
+    else:
+        detail = ""
+    return DueItem(
+        machine=r.tag or "",
+        machine_id=r.machine_id,
+        machine_name=r.machine_name or "",
+        area=r.area or "",
+        safeguard=r.label,
+        safeguard_id=r.safeguard_id,
+        kind=k,
+        kind_label=LABELS[k],
+        last_done=r.last_done,
+        interval_days=r.interval_days,
+        due_date=r.due,
+        days_overdue=(today - r.due).days,
+        detail=detail,
+    )
 
 
 # every kind of item, in the order of the union (the items are sorted after)
@@ -896,13 +1003,13 @@ KIND_ORDER = (
 )
 
 
-def _machines(site_id: int, area: str | None, machine_id: int | None) -> Any:
+def _machines(site_id: int, area: str | None, machine_ids: list[int] | None) -> Any:
     """The site's machines in service that pass the filters (a subquery of ids)."""
     ids = select(Machine.id).where(Machine.site_id == site_id, Machine.active.is_(True))
     if area:
         ids = ids.join(Area, Area.id == Machine.area_id).where(Area.name == area)
-    if machine_id:
-        ids = ids.where(Machine.id == machine_id)
+    if machine_ids is not None:
+        ids = ids.where(Machine.id.in_(machine_ids))
     return ids
 
 
@@ -923,9 +1030,9 @@ def _working_runs(pattern: str, start: dt.date, n: int) -> list[tuple[dt.date, d
     return out
 
 
-def _duties(site_id: int, area: str | None, machine_id: int | None) -> Any:
+def _duties(site_id: int, area: str | None, machine_ids: list[int] | None) -> Any:
     """The distinct duties (B10d and usage) of the parts that may need replacing."""
-    ids = _machines(site_id, area, machine_id)
+    ids = _machines(site_id, area, machine_ids)
     current = (
         select(func.max(Assessment.id))
         .where(Assessment.machine_id.in_(ids), Assessment.status != "superseded")
@@ -944,6 +1051,206 @@ def _duties(site_id: int, area: str | None, machine_id: int | None) -> Any:
     )
 
 
+# --- the stored items, kept current -------------------------------------------------------
+#
+# Working the items out reads much of the register (48,000 items from 3 million
+# start-of-shift checks at 5,000 machines: seconds), so the due board and the overview
+# read them from ``due_item``, where they are stored as worked out. They stay exact:
+#
+# - a write to any record they are worked out from (SOURCES) notes its machine in the
+#   session; when the session commits, that machine's items are worked out again in the
+#   same transaction (a site-wide record, such as an area or a site interval, marks the
+#   whole site to be worked out again instead);
+# - some items depend on the day itself (the start-of-shift window, "due today" for a
+#   validation or a calibration never recorded), so ``due_refresh`` holds the day the
+#   site was last worked out for in full; the first read on another day works the whole
+#   site out again before it reads, in a transaction of its own;
+# - a transaction that has changed the register and not yet committed reads the items
+#   worked out from the register itself, as does a read for another day than today.
+#
+# Both kinds of rewrite hold the site's ``due_refresh`` row (FOR UPDATE on PostgreSQL;
+# SQLite has one writer at a time), so a full pass and a machine's rewrite never
+# interleave.
+
+PENDING = "due_pending"  # session.info: site id → machine ids, WHOLE_SITE, CALIBRATION
+WHOLE_SITE = "site"
+CALIBRATION = "calibration"
+MAX_MACHINES_AT_COMMIT = 100  # more machines changed at once: the whole site, on next read
+
+# The records the items are worked out from (a test checks them against the tables the
+# statements read).
+SOURCES: tuple[type, ...] = (
+    Area,
+    Assessment,
+    Instrument,
+    LockoutProcedure,
+    Machine,
+    Modification,
+    PressProfile,
+    Safeguard,
+    SafetyFunction,
+    SafetyFunctionPart,
+    ShiftCheck,
+    ShiftChecklist,
+    StoppingTimeMeasurement,
+    Verification,
+    VerificationInterval,
+)
+
+
+def _note(session: Session, obj: Any, *, old: bool) -> None:
+    """Note what a changed record means for the stored items."""
+    if not isinstance(obj, SOURCES):
+        return
+    pending: dict[int, set[int | str]] = session.info.setdefault(PENDING, {})
+    with session.no_autoflush:
+        if isinstance(obj, Instrument):
+            pending.setdefault(obj.site_id, set()).add(CALIBRATION)
+            return
+        if isinstance(obj, VerificationInterval):
+            sg = session.get(Safeguard, obj.safeguard_id) if obj.safeguard_id else None
+            pending.setdefault(obj.site_id, set()).add(sg.machine_id if sg else WHOLE_SITE)
+            return
+        if isinstance(obj, Area):
+            pending.setdefault(obj.site_id, set()).add(WHOLE_SITE)
+            return
+        site_id, machine_id = _place(obj)
+        if site_id is None:
+            return
+        noted = pending.setdefault(site_id, set())
+        noted.add(machine_id if machine_id is not None else WHOLE_SITE)
+        if old and "machine_id" in inspect(obj).attrs:  # moved to another machine
+            noted.update(m for m in inspect(obj).attrs.machine_id.history.deleted if m)
+
+
+def _before_flush(session: Session, _ctx: Any, _instances: Any) -> None:
+    for obj in list(session.dirty):
+        if session.is_modified(obj):
+            _note(session, obj, old=True)
+    for obj in list(session.deleted):
+        _note(session, obj, old=True)
+
+
+def _after_flush(session: Session, _ctx: Any) -> None:
+    for obj in list(session.new):  # now with their ids
+        _note(session, obj, old=False)
+
+
+def _before_commit(session: Session) -> None:
+    if session.in_nested_transaction():
+        return
+    session.flush()
+    pending: dict[int, set[int | str]] = session.info.pop(PENDING, {})
+    if not pending:
+        return
+    conn = session.connection()
+    today = dt.date.today()
+    for site_id, noted in sorted(pending.items()):
+        _rewrite_noted(conn, site_id, noted, today)
+
+
+def _forget(session: Session) -> None:
+    session.info.pop(PENDING, None)
+
+
+def install(factory: sessionmaker[Session]) -> None:
+    """Keep the stored due items current on every session the factory makes."""
+    event.listen(factory, "before_flush", _before_flush)
+    event.listen(factory, "after_flush", _after_flush)
+    event.listen(factory, "before_commit", _before_commit)
+    event.listen(factory, "after_commit", _forget)
+    event.listen(factory, "after_rollback", _forget)
+
+
+def mark_site(session: Session, site_id: int) -> None:
+    """Have the whole site worked out again (for writes that bypass the ORM)."""
+    session.info.setdefault(PENDING, {}).setdefault(site_id, set()).add(WHOLE_SITE)
+
+
+def _rewrite_noted(conn: Connection, site_id: int, noted: set[int | str], today: dt.date) -> None:
+    t = DueRefresh.__table__
+    stamp = conn.execute(
+        select(t.c.computed_for).where(t.c.site_id == site_id).with_for_update()
+    ).first()
+    if stamp is None:
+        return  # never worked out: the first read works the whole site out
+    machines = sorted(m for m in noted if isinstance(m, int))
+    if stamp.computed_for != today or WHOLE_SITE in noted or len(machines) > MAX_MACHINES_AT_COMMIT:
+        if stamp.computed_for is not None:
+            conn.execute(update(t).where(t.c.site_id == site_id).values(computed_for=None))
+        return
+    if machines:
+        _replace(conn, site_id, today, machine_ids=machines)
+    if CALIBRATION in noted:
+        _replace(conn, site_id, today, kind="calibration")
+
+
+def _replace(
+    conn: Connection,
+    site_id: int,
+    today: dt.date,
+    *,
+    machine_ids: list[int] | None = None,
+    kind: str | None = None,
+) -> None:
+    """Replace stored items (of a site, of some of its machines, or of one kind) by
+    those worked out now."""
+    t = DueItemRow.__table__
+    cond = [t.c.site_id == site_id]
+    if machine_ids is not None:
+        cond.append(t.c.machine_id.in_(machine_ids))
+    if kind is not None:
+        cond.append(t.c.kind == kind)
+    conn.execute(delete(t).where(*cond))
+    _DueQuery(
+        conn, site_id, today, area=None, machine_ids=machine_ids, kind=kind, within_days=None
+    ).store(site_id)
+
+
+def rewrite_site(conn: Connection, site_id: int, today: dt.date | None = None) -> bool:
+    """Work the whole site out for ``today`` and store it, unless another transaction
+    has just done so; in the caller's transaction. True when this call did it."""
+    today = today or dt.date.today()
+    t = DueRefresh.__table__
+    claimed = conn.execute(
+        update(t)
+        .where(t.c.site_id == site_id, or_(t.c.computed_for.is_(None), t.c.computed_for != today))
+        .values(computed_for=today)
+    ).rowcount
+    if not claimed:
+        ins = pg_insert(t) if conn.dialect.name == "postgresql" else sqlite_insert(t)
+        claimed = conn.execute(
+            ins.values(site_id=site_id, computed_for=today).on_conflict_do_nothing()
+        ).rowcount
+    if not claimed:
+        return False
+    _replace(conn, site_id, today)
+    return True
+
+
+def _current(session: Session, site_id: int, today: dt.date) -> bool:
+    """True when the stored items of the site can be read for ``today`` (worked out
+    first, in a transaction of their own, when they were for another day)."""
+    if session.info.get(PENDING):
+        return False  # this transaction changed the register: work them out from it
+    stamp = session.scalar(select(DueRefresh.computed_for).where(DueRefresh.site_id == site_id))
+    if stamp == today:
+        return True
+    if session.new or session.dirty or session.deleted or _writing(session):
+        return False  # a separate transaction could wait on this one
+    with session.get_bind().connect() as conn:
+        with conn.begin():
+            rewrite_site(conn, site_id, today)
+    return True
+
+
+def _writing(session: Session) -> bool:
+    """True when the session holds SQLite's write lock (a flushed, uncommitted write)."""
+    if _dialect(session) != "sqlite" or not session.in_transaction():
+        return False
+    return bool(session.connection().connection.dbapi_connection.in_transaction)  # type: ignore[union-attr]
+
+
 def _query(
     session: Session,
     site: Site,
@@ -952,13 +1259,24 @@ def _query(
     machine_id: int | None,
     kind: str | None,
     within_days: int | None,
-) -> _DueQuery:
+) -> _DueQuery | _Stored:
+    day = today or dt.date.today()
+    if day == dt.date.today() and _current(session, site.id, day):
+        return _Stored(
+            session,
+            site.id,
+            day,
+            area=area,
+            machine_id=machine_id,
+            kind=kind,
+            within_days=within_days,
+        )
     return _DueQuery(
         session,
-        site,
-        today or dt.date.today(),
+        site.id,
+        day,
         area=area,
-        machine_id=machine_id,
+        machine_ids=[machine_id] if machine_id else None,
         kind=kind,
         within_days=within_days,
     )
@@ -988,7 +1306,7 @@ def due_summary(
     machine_id: int | None = None,
     kind: str | None = None,
 ) -> dict[str, int]:
-    """How many items there are of every status (STATUSES), in one statement."""
+    """How many items there are of every status (STATUSES)."""
     return _query(session, site, today, area, machine_id, kind, within_days).summary()
 
 
@@ -1014,3 +1332,12 @@ def due_page(
         items = q.page(per_page, (page - 1) * per_page)[0] if sum(n.values()) else []
     total = sum(n.values())
     return DuePage(items, n, total, page, max(1, -(-total // per_page)), per_page)
+
+
+def worked_out(session: Session, site: Site, *, today: dt.date | None = None) -> list[DueItem]:
+    """Every due item worked out from the register itself, never the stored copy (to
+    check the stored one against)."""
+    day = today or dt.date.today()
+    return _DueQuery(
+        session, site.id, day, area=None, machine_ids=None, kind=None, within_days=None
+    ).items()

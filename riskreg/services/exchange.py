@@ -101,7 +101,7 @@ from riskreg.vocab import (
     RATING_STAGES,
 )
 
-from . import evidence
+from . import due, evidence
 from .errors import ValidationError
 from .register import B11_LEVELS, PL_LEVELS, SIL_LEVELS, compute_rating
 from .revisions import MODIFICATION_KINDS
@@ -829,6 +829,8 @@ NOT_EXPORTED_TABLES = {
     "user_account": "people appear by e-mail and name only, never with credentials",
     "calendar_token": "secrets of the calendar feeds; make new ones after an import",
     "alembic_version": "the schema revision, not register content",
+    "due_item": "derived: the due items are worked out again from the imported register",
+    "due_refresh": "derived: the day the due items were last worked out",
 }
 
 
@@ -2158,6 +2160,7 @@ def import_site(
                 },
             },
         )
+        due.mark_site(session, site_id)  # written past the session's hooks
         session.commit()
     except SQLAlchemyError as exc:
         session.rollback()
@@ -2198,7 +2201,6 @@ def table_rows(
     session: Session, site: Site, which: str, *, today: dt.date | None = None
 ) -> tuple[list[str], list[list[Any]]]:
     """The header and rows of one table (plain values: text, numbers, dates)."""
-    from . import due
     from .register import current_rating, site_overview
 
     if which == "machines":
