@@ -56,9 +56,17 @@ from sqlalchemy.orm import Session  # noqa: E402
 from riskreg import migrate  # noqa: E402
 from riskreg.db import make_engine, session_factory  # noqa: E402
 from riskreg.model import Base  # noqa: E402
-from riskreg.services import audit, register, revisions, safeguards, users, verification  # noqa: E402
+from riskreg.services import (  # noqa: E402
+    audit,
+    due,
+    register,
+    revisions,
+    safeguards,
+    users,
+    verification,
+)
 
-GENERATOR_VERSION = 1
+GENERATOR_VERSION = 2  # 2: the due items stored (due_item)
 SEED = 20260417
 AREA_SIZE = 25
 BATCH = 50  # machines per batch of inserts
@@ -71,6 +79,8 @@ PEOPLE = [
     ("viewer@bench.invalid", "Bench Viewer", "viewer"),
 ]
 # tables shared by all machines: copied once, ids kept
+# worked out from the rest once the register is loaded (services.due), never copied
+DERIVED = {"due_item", "due_refresh"}
 SHARED = {"site", "area", "user_account", "component", "evidence_file", "instrument", "audit_entry"}
 FITTERS = ("Maintenance fitter A", "Maintenance fitter B", "Maintenance fitter C")
 OPERATORS = ("Operator 1", "Operator 2", "Operator 3", "Operator 4", "Operator 5")
@@ -464,7 +474,7 @@ def owned_tables() -> list[Table]:
     owned = {"machine"}
     out = []
     for t in Base.metadata.sorted_tables:
-        if t.name in SHARED or t.name == "machine":
+        if t.name in SHARED or t.name in DERIVED or t.name == "machine":
             continue
         if any(fk.column.table.name in owned for fk in t.foreign_keys):
             owned.add(t.name)
@@ -1016,6 +1026,8 @@ def generate(
                     if (i + 1) % 1000 == 0:
                         log(f"  {i + 1} machines, {time.perf_counter() - started:.0f} s")
                 gen.flush()
+            with conn.begin():  # the due items as the register's first read would store them
+                due.rewrite_site(conn, site_id)
             bad = conn.exec_driver_sql("PRAGMA foreign_key_check").fetchall()
             if bad:
                 raise RuntimeError(f"broken references in the generated register: {bad[:5]}")
