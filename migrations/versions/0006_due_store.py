@@ -1,4 +1,5 @@
-"""due board: the due items as last worked out, per site, and the day of the last full pass
+"""due board and overview: the due items as last worked out, per site, and the day of
+the last full pass; indexes for the overview's counts and levels
 
 Revision ID: 0006
 Revises: 0005
@@ -56,6 +57,17 @@ def upgrade() -> None:
         batch_op.create_index("ix_due_item_order", ["site_id", "due"], unique=False)
         batch_op.create_index(batch_op.f("ix_due_item_machine_id"), ["machine_id"], unique=False)
 
+    with op.batch_alter_table("hazard", schema=None) as batch_op:
+        batch_op.create_index(
+            "ix_hazard_overview", ["assessment_id", "archived", "residual_accepted_at"], unique=False
+        )
+    with op.batch_alter_table("risk_rating", schema=None) as batch_op:
+        batch_op.create_index(
+            "ix_risk_rating_overview",
+            ["hazard_id", "stage", "superseded", "method", "override_level", "derived_level"],
+            unique=False,
+        )
+
     op.create_table(
         "due_refresh",
         sa.Column("site_id", sa.Integer(), nullable=False),
@@ -68,6 +80,10 @@ def upgrade() -> None:
 
 
 def downgrade() -> None:
+    with op.batch_alter_table("risk_rating", schema=None) as batch_op:
+        batch_op.drop_index("ix_risk_rating_overview")
+    with op.batch_alter_table("hazard", schema=None) as batch_op:
+        batch_op.drop_index("ix_hazard_overview")
     op.drop_table("due_refresh")
     with op.batch_alter_table("due_item", schema=None) as batch_op:
         batch_op.drop_index(batch_op.f("ix_due_item_machine_id"))

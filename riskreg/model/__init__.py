@@ -204,6 +204,10 @@ hazard_safety_function = Table(
 
 class Hazard(Base):
     __tablename__ = "hazard"
+    __table_args__ = (
+        # the site overview's counts per machine, read from the index alone
+        Index("ix_hazard_overview", "assessment_id", "archived", "residual_accepted_at"),
+    )
 
     id: Mapped[int] = mapped_column(primary_key=True)
     assessment_id: Mapped[int] = mapped_column(ForeignKey("assessment.id"), index=True)
@@ -244,6 +248,18 @@ class RiskRating(Base):
     """A rating of a hazard by one method at one stage, with its derivation stored."""
 
     __tablename__ = "risk_rating"
+    __table_args__ = (
+        # the highest level per machine on the site overview, read from the index alone
+        Index(
+            "ix_risk_rating_overview",
+            "hazard_id",
+            "stage",
+            "superseded",
+            "method",
+            "override_level",
+            "derived_level",
+        ),
+    )
 
     id: Mapped[int] = mapped_column(primary_key=True)
     hazard_id: Mapped[int] = mapped_column(ForeignKey("hazard.id"), index=True)

@@ -12,6 +12,11 @@ queries prepare it: the site's intervals, the T10d of each distinct component du
 start-of-shift checklists. The statement is built once per shape (kinds, filters,
 number of duties and of runs of working days) with every value bound, so SQLAlchemy
 compiles it once; ``tests/services`` and ``tests/web`` check its items.
+
+The pages read the items from a stored copy of that query's result (``due_item``),
+kept exact by session hooks and worked out again for a whole site on the first read
+of each day: see "the stored items" below; ``tests/services/test_due_store.py``
+checks the copy against the query after every kind of write.
 """
 
 from __future__ import annotations
@@ -924,19 +929,21 @@ class _Stored:
             )
         )
         week, month = today + dt.timedelta(days=7), today + dt.timedelta(days=30)
-        by_status = (
-            t.due < today,
-            and_(t.due >= today, t.due <= week),
-            and_(t.due > week, t.due <= month),
-            t.due > month,
-        )
+
+        def count(*more: Any) -> Any:  # a range of ix_due_item_order, counted
+            return select(func.count()).where(*cond, *more).scalar_subquery()
+
+        # overdue, within 7 days, within 30 days, and all of them ("later" is the rest)
         self.counts = select(
-            *[func.coalesce(func.sum(case((c, 1), else_=0)), 0) for c in by_status]
-        ).where(*cond)
+            count(t.due < today),
+            count(t.due >= today, t.due <= week),
+            count(t.due > week, t.due <= month),
+            count(),
+        )
 
     def summary(self) -> dict[str, int]:
-        row = self.session.execute(self.counts).one()
-        return {s: int(v) for s, v in zip(STATUSES, row, strict=True)}
+        late, week, month, total = self.session.execute(self.counts).one()
+        return dict(zip(STATUSES, (late, week, month, total - late - week - month), strict=True))
 
     def items(self) -> list[DueItem]:
         return [_item(r, self.today) for r in self.session.execute(self.ordered)]

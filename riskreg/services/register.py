@@ -13,7 +13,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import case, func, literal, select, union_all
+from sqlalchemy import case, func, literal, or_, select, union_all
 from sqlalchemy.orm import Session, contains_eager, joinedload, selectinload
 from sqlalchemy.orm.attributes import set_committed_value
 from sqlalchemy.orm.exc import StaleDataError
@@ -1145,16 +1145,18 @@ def site_overview_page(
     )
 
 
-def machines_in_service(session: Session, site: Site) -> list[Any]:
-    """Id, asset tag and name of a site's machines in service, by asset tag (for a list
-    to choose from; one light query rather than the machine records)."""
-    return list(
-        session.execute(
-            select(Machine.id, Machine.asset_tag, Machine.name)
-            .where(Machine.site_id == site.id, Machine.active.is_(True))
-            .order_by(Machine.asset_tag)
-        )
-    )
+def machine_in_service(session: Session, site: Site, ref: str) -> Any | None:
+    """Id, asset tag and name of a site's machine in service, found by its asset tag or
+    its number (the tag wins); None when there is none."""
+    which = Machine.asset_tag == ref
+    if ref.isdigit() and len(ref) <= 9:
+        which = or_(which, Machine.id == int(ref))
+    return session.execute(
+        select(Machine.id, Machine.asset_tag, Machine.name)
+        .where(Machine.site_id == site.id, Machine.active.is_(True), which)
+        .order_by(case((Machine.asset_tag == ref, 0), else_=1))
+        .limit(1)
+    ).first()
 
 
 def list_machines(session: Session, site: Site | None = None) -> list[Machine]:

@@ -294,9 +294,9 @@ def verification_page(verification_id: int) -> Any:
 # --- the due board ---------------------------------------------------------------------
 
 
-def _due_filters(site: Site) -> tuple[dict[str, Any], list[str], list[Any]]:
-    """The board's filters from the query string; bad values become messages."""
-    machines = register.machines_in_service(db(), site)  # id, asset tag and name of each
+def _due_filters(site: Site) -> tuple[dict[str, Any], list[str], str]:
+    """The board's filters from the query string; bad values become messages. Also the
+    asset tag of the machine filtered on (for the form)."""
     problems: list[str] = []
     out: dict[str, Any] = {"area": None, "machine_id": None, "kind": None}
     area = request.args.get("area", "").strip()
@@ -310,15 +310,16 @@ def _due_filters(site: Site) -> tuple[dict[str, Any], list[str], list[Any]]:
                 f"{', '.join(names) or 'none recorded'}. Showing every area."
             )
     raw = request.args.get("machine", "").strip()
+    tag = ""
     if raw:
-        found = next((m for m in machines if str(m.id) == raw or m.asset_tag == raw), None)
+        found = register.machine_in_service(db(), site, raw)
         if found is None:
             problems.append(
-                f"“{raw[:40]}” is not a machine of {site.name} in service; choose one from the "
-                "list. Showing every machine."
+                f"“{raw[:40]}” is not a machine of {site.name} in service; enter the asset "
+                "tag of one. Showing every machine."
             )
         else:
-            out["machine_id"] = found.id
+            out["machine_id"], tag = found.id, found.asset_tag
     kind = request.args.get("kind", "").strip()
     if kind:
         if kind in due.LABELS:
@@ -328,7 +329,7 @@ def _due_filters(site: Site) -> tuple[dict[str, Any], list[str], list[Any]]:
                 f"“{kind[:40]}” is not a kind of check; choose one of: "
                 f"{', '.join(due.LABELS.values())}. Showing every kind."
             )
-    return out, problems, machines
+    return out, problems, tag
 
 
 def due_link(item: due.DueItem, site_id: int) -> tuple[str, str] | None:
@@ -360,7 +361,7 @@ def due_link(item: due.DueItem, site_id: int) -> tuple[str, str] | None:
 @bp.route("/sites/<int:site_id>/due")
 def due_board(site_id: int) -> Any:
     site = get_site(site_id)
-    filters, problems, machines = _due_filters(site)
+    filters, problems, machine_tag = _due_filters(site)
     # one page of the items (soonest first); the counts are of them all
     view = due.due_page(db(), site, page=request.args.get("page", 1, type=int), **filters)
     groups: dict[str, list[tuple[due.DueItem, tuple[str, str] | None]]] = {
@@ -377,7 +378,7 @@ def due_board(site_id: int) -> Any:
         view=view,
         problems=problems,
         filters=filters,
-        machines=machines,
+        machine_tag=machine_tag,
         labels=due.LABELS,
         title=f"What is due · {site.name}",
     ), (400 if problems else 200)

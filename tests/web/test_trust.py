@@ -601,6 +601,9 @@ def test_due_board_filters(client_as: Client, ts: TrustSeed, board: dict[str, in
         ("PB-9", "Functional test by maintenance"),
         ("PB-9", "Periodic inspection"),
     }
+    by_tag = client.get(base + "?machine=PB-9").get_data(as_text=True)
+    assert _kinds_and_tags(by_tag) == by_machine  # the asset tag, as typed in the filter
+    assert 'name="machine" value="PB-9"' in by_tag
     by_area = _kinds_and_tags(client.get(base + "?area=Fabrication").get_data(as_text=True))
     assert by_area == by_machine
     press_line = _kinds_and_tags(client.get(base + "?area=Press+line").get_data(as_text=True))
