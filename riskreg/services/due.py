@@ -1226,9 +1226,14 @@ def rewrite_site(conn: Connection, site_id: int, today: dt.date | None = None) -
     ).rowcount
     if not claimed:
         ins = pg_insert(t) if conn.dialect.name == "postgresql" else sqlite_insert(t)
-        claimed = conn.execute(
-            ins.values(site_id=site_id, computed_for=today).on_conflict_do_nothing()
-        ).rowcount
+        claimed = (  # a row when this call inserted it (rowcount is not told here)
+            conn.execute(
+                ins.values(site_id=site_id, computed_for=today)
+                .on_conflict_do_nothing()
+                .returning(t.c.site_id)
+            ).first()
+            is not None
+        )
     if not claimed:
         return False
     _replace(conn, site_id, today)
