@@ -1004,7 +1004,7 @@ def _current_assessment_ids(site_id: int) -> Any:
     )
 
 
-OVERVIEW_PAGE_SIZE = 100  # machines per page of the site overview
+OVERVIEW_PAGE_SIZE = 50  # machines per page of the site overview (a tablet-length list)
 
 
 @dataclass(frozen=True)

@@ -147,6 +147,12 @@ def test_the_report_links_partial(app: Flask, demo: Session) -> None:
     assert f'href="/machines/{m.id}/report.pdf"' in for_machine
     assert f'action="/sites/{site.id}/report"' in for_site
     assert f'href="/sites/{site.id}/due-report.pdf"' in for_site
+    assert "labels.pdf" not in for_site  # one link per area, beside its heading
+
+
+def test_the_overview_links_each_area_to_its_labels(client: FlaskClient, demo: Session) -> None:
+    site = the_site(demo)
+    html = client.get(f"/sites/{site.id}").get_data(as_text=True)
     assert len(site.areas) == 3
     for a in site.areas:
-        assert f'href="/areas/{a.id}/labels.pdf"' in for_site
+        assert f'href="/areas/{a.id}/labels.pdf"' in html
