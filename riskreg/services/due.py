@@ -1068,10 +1068,11 @@ def _duties(site_id: int, area: str | None, machine_ids: list[int] | None) -> An
 #   session; when the session commits, that machine's items are worked out again in the
 #   same transaction (a site-wide record, such as an area or a site interval, marks the
 #   whole site to be worked out again instead);
-# - some items depend on the day itself (the start-of-shift window, "due today" for a
-#   validation or a calibration never recorded), so ``due_refresh`` holds the day the
-#   site was last worked out for in full; the first read on another day works the whole
-#   site out again before it reads, in a transaction of its own;
+# - some items depend on the day itself (DAY_KINDS: the start-of-shift window, "due
+#   today" for a validation or a calibration never recorded), so ``due_refresh`` holds
+#   the day the site's items were worked out for; the first read on another day works
+#   those kinds out again for the whole site before it reads, in a transaction of its
+#   own (and everything, when the day is empty: never worked out, or marked so);
 # - a transaction that has changed the register and not yet committed reads the items
 #   worked out from the register itself, as does a read for another day than today.
 #
@@ -1083,6 +1084,11 @@ PENDING = "due_pending"  # session.info: site id → machine ids, WHOLE_SITE, CA
 WHOLE_SITE = "site"
 CALIBRATION = "calibration"
 MAX_MACHINES_AT_COMMIT = 100  # more machines changed at once: the whole site, on next read
+# The kinds whose items depend on the day itself, not only on the records: the missed
+# start-of-shift checks (the window ends yesterday), and "due today" for a validation
+# with no modification found or an instrument never calibrated. The other kinds' items
+# are the same whatever the day (a test checks it), so a new day redoes these alone.
+DAY_KINDS = ("shift_check", "full_validation", "calibration")
 
 # The records the items are worked out from (a test checks them against the tables the
 # statements read).
@@ -1179,13 +1185,17 @@ def _rewrite_noted(conn: Connection, site_id: int, noted: set[int | str], today:
     stamp = conn.execute(
         select(t.c.computed_for).where(t.c.site_id == site_id).with_for_update()
     ).first()
-    if stamp is None:
-        return  # never worked out: the first read works the whole site out
+    if stamp is None or stamp.computed_for is None:
+        return  # never worked out, or to be worked out in full: the next read does it
     machines = sorted(m for m in noted if isinstance(m, int))
-    if stamp.computed_for != today or WHOLE_SITE in noted or len(machines) > MAX_MACHINES_AT_COMMIT:
-        if stamp.computed_for is not None:
-            conn.execute(update(t).where(t.c.site_id == site_id).values(computed_for=None))
+    if (
+        stamp.computed_for > today  # stored by a server whose clock is ahead
+        or WHOLE_SITE in noted
+        or len(machines) > MAX_MACHINES_AT_COMMIT
+    ):
+        conn.execute(update(t).where(t.c.site_id == site_id).values(computed_for=None))
         return
+    # (stored for an earlier day: the day's pass redoes the day's kinds, not these)
     if machines:
         _replace(conn, site_id, today, machine_ids=machines)
     if CALIBRATION in noted:
@@ -1215,29 +1225,48 @@ def _replace(
 
 
 def rewrite_site(conn: Connection, site_id: int, today: dt.date | None = None) -> bool:
-    """Work the whole site out for ``today`` and store it, unless another transaction
-    has just done so; in the caller's transaction. True when this call did it."""
+    """Bring the site's stored items to ``today``, in the caller's transaction: all of
+    them when they were never worked out or were marked to be, else the kinds that
+    depend on the day itself (DAY_KINDS). Nothing when another transaction has just done
+    it; True when this call did."""
     today = today or dt.date.today()
     t = DueRefresh.__table__
-    claimed = conn.execute(
-        update(t)
-        .where(t.c.site_id == site_id, or_(t.c.computed_for.is_(None), t.c.computed_for != today))
-        .values(computed_for=today)
-    ).rowcount
-    if not claimed:
-        ins = pg_insert(t) if conn.dialect.name == "postgresql" else sqlite_insert(t)
+    row = conn.execute(select(t.c.computed_for).where(t.c.site_id == site_id)).first()
+    if row is None:
         claimed = (  # a row when this call inserted it (rowcount is not told here)
             conn.execute(
-                ins.values(site_id=site_id, computed_for=today)
+                _insert_or_skip(conn, t)
+                .values(site_id=site_id, computed_for=today)
                 .on_conflict_do_nothing()
                 .returning(t.c.site_id)
             ).first()
             is not None
         )
+        full = True
+    else:
+        was = row.computed_for
+        if was == today:
+            return False
+        unchanged = t.c.computed_for.is_(None) if was is None else t.c.computed_for == was
+        claimed = bool(
+            conn.execute(
+                update(t).where(t.c.site_id == site_id, unchanged).values(computed_for=today)
+            ).rowcount
+        )
+        full = was is None or was > today
     if not claimed:
         return False
-    _replace(conn, site_id, today)
+    if full:
+        _replace(conn, site_id, today)
+    else:
+        for k in DAY_KINDS:
+            _replace(conn, site_id, today, kind=k)
     return True
+
+
+def _insert_or_skip(conn: Connection, table: Any) -> Any:
+    """INSERT with ON CONFLICT, in the dialect of the connection."""
+    return pg_insert(table) if conn.dialect.name == "postgresql" else sqlite_insert(table)
 
 
 def _current(session: Session, site_id: int, today: dt.date) -> bool:

@@ -201,21 +201,53 @@ def test_every_kind_of_write_keeps_the_stored_items_exact(
     check_same(session, plant)
 
 
-def test_a_new_day_works_the_site_out_again(session: Session, plant: Site) -> None:
-    items = check_same(session, plant)
-    # as if the items were stored yesterday and one of them has changed since
+def _stored_on(session: Session, site: Site, day: dt.date | None) -> None:
     session.execute(
-        update(DueRefresh)
-        .where(DueRefresh.site_id == plant.id)
-        .values(computed_for=TODAY - dt.timedelta(days=1))
+        update(DueRefresh).where(DueRefresh.site_id == site.id).values(computed_for=day)
     )
-    session.execute(update(DueItemRow).values(due=dt.date(2000, 1, 1)))
+
+
+def test_a_new_day_works_out_the_kinds_that_depend_on_the_day(
+    session: Session, plant: Site
+) -> None:
+    items = check_same(session, plant)
+    assert any(i.kind == "shift_check" for i in items)
+    # as if the items were stored yesterday: the day's kinds are stale (spoilt here)
+    _stored_on(session, plant, TODAY - dt.timedelta(days=1))
+    session.execute(
+        update(DueItemRow).where(DueItemRow.kind.in_(due.DAY_KINDS)).values(due=dt.date(2000, 1, 1))
+    )
     session.commit()
     assert due.due_items(session, plant) == items
     assert session.get(DueRefresh, plant.id).computed_for == TODAY
-    # a second full pass for the same day is not claimed twice
+    # a second pass for the same day is not claimed twice
     with session.get_bind().connect() as conn, conn.begin():
         assert due.rewrite_site(conn, plant.id) is False
+
+
+def test_a_site_marked_for_it_is_worked_out_in_full(session: Session, plant: Site) -> None:
+    items = check_same(session, plant)
+    _stored_on(session, plant, None)
+    session.execute(update(DueItemRow).values(due=dt.date(2000, 1, 1)))
+    session.commit()
+    assert due.due_items(session, plant) == items
+
+
+def test_only_the_day_kinds_depend_on_the_day(session: Session, plant: Site) -> None:
+    """Why a new day redoes DAY_KINDS alone: every other item is the same on any day
+    (its due date and what it says), only how late it is changes."""
+
+    def fixed(day: dt.date) -> list[tuple[object, ...]]:
+        return [
+            (i.kind, i.machine, i.safeguard_id, i.due_date, i.last_done, i.detail)
+            for i in due.worked_out(session, plant, today=day)
+            if i.kind not in due.DAY_KINDS
+        ]
+
+    today = fixed(TODAY)
+    assert {k for k, *_ in today} >= {"functional_test", "inspection", "weekly_press"}
+    for later in (1, 45, 400):
+        assert fixed(TODAY + dt.timedelta(days=later)) == today
 
 
 def test_an_uncommitted_change_is_read_from_the_register(session: Session, plant: Site) -> None:
