@@ -1041,7 +1041,7 @@ def _overview_query(site: Site, search: str, include_retired: bool, pg: bool) ->
 def _overview_rows(
     session: Session, site: Site, machines: list[Machine], only_these: bool
 ) -> list[MachineRow]:
-    """Counts and levels of the machines, in one set-based query (over the given
+    """Counts and levels of the machines, in three set-based queries (over the given
     machines when ``only_these``, else over the whole site)."""
     if not machines:
         return []
@@ -1056,46 +1056,45 @@ def _overview_rows(
             .group_by(Assessment.machine_id)
             .scalar_subquery()
         )
-    # one statement: per machine, the open hazards, each (method, level) of its current
-    # initial ratings, and the proposed measures, told apart by the first column
-    cur = select(Assessment.id, Assessment.machine_id).where(Assessment.id.in_(current)).cte()
+    hazard_counts = dict(
+        session.execute(
+            select(Assessment.machine_id, func.count(Hazard.id))
+            .join(Hazard, Hazard.assessment_id == Assessment.id)
+            .where(
+                Assessment.id.in_(current),
+                Hazard.archived.is_(False),
+                Hazard.residual_accepted_at.is_(None),
+            )
+            .group_by(Assessment.machine_id)
+        ).all()
+    )
+    levels: dict[int, list[tuple[str, str]]] = {}
     level_expr = func.coalesce(RiskRating.override_level, RiskRating.derived_level)
-    parts = union_all(
-        select(literal("open"), cur.c.machine_id, literal(""), func.count(Hazard.id))
-        .join(Hazard, Hazard.assessment_id == cur.c.id)
-        .where(Hazard.archived.is_(False), Hazard.residual_accepted_at.is_(None))
-        .group_by(cur.c.machine_id),
-        select(literal("level"), cur.c.machine_id, RiskRating.method + " " + level_expr, 0)
-        .join(Hazard, Hazard.assessment_id == cur.c.id)
+    for machine_id, method, level in session.execute(
+        select(Assessment.machine_id, RiskRating.method, level_expr)
+        .join(Hazard, Hazard.assessment_id == Assessment.id)
         .join(RiskRating, RiskRating.hazard_id == Hazard.id)
         .where(
+            Assessment.id.in_(current),
             Hazard.archived.is_(False),
             RiskRating.stage == "initial",
             RiskRating.superseded.is_(False),
             RiskRating.method.in_(("iso13849", "iec62061")),
         )
-        .group_by(cur.c.machine_id, RiskRating.method, level_expr),
-        select(
-            literal("proposed"),
-            cur.c.machine_id,
-            literal(""),
-            func.sum(case((ProtectiveMeasure.status == "proposed", 1), else_=0)),
-        )
-        .join(ProtectiveMeasure, ProtectiveMeasure.assessment_id == cur.c.id)
-        .where(ProtectiveMeasure.archived.is_(False))
-        .group_by(cur.c.machine_id),
+        .group_by(Assessment.machine_id, RiskRating.method, level_expr)
+    ):
+        levels.setdefault(machine_id, []).append((method, level))
+    proposed = dict(
+        session.execute(
+            select(
+                Assessment.machine_id,
+                func.sum(case((ProtectiveMeasure.status == "proposed", 1), else_=0)),
+            )
+            .join(ProtectiveMeasure, ProtectiveMeasure.assessment_id == Assessment.id)
+            .where(Assessment.id.in_(current), ProtectiveMeasure.archived.is_(False))
+            .group_by(Assessment.machine_id)
+        ).all()
     )
-    hazard_counts: dict[int, int] = {}
-    proposed: dict[int, int] = {}
-    levels: dict[int, list[tuple[str, str]]] = {}
-    for what, machine_id, text, n in session.execute(parts):
-        if what == "open":
-            hazard_counts[machine_id] = n
-        elif what == "proposed":
-            proposed[machine_id] = n
-        else:
-            method, level = text.split(" ", 1)
-            levels.setdefault(machine_id, []).append((method, level))
     rows = []
     for m in machines:
         lv = levels.get(m.id, [])
