@@ -933,17 +933,17 @@ class _Stored:
         def count(*more: Any) -> Any:  # a range of ix_due_item_order, counted
             return select(func.count()).where(*cond, *more).scalar_subquery()
 
-        # overdue, within 7 days, within 30 days, and all of them ("later" is the rest)
+        # each status, in the order of STATUSES: four ranges that cover the index once
         self.counts = select(
             count(t.due < today),
             count(t.due >= today, t.due <= week),
             count(t.due > week, t.due <= month),
-            count(),
+            count(t.due > month),
         )
 
     def summary(self) -> dict[str, int]:
-        late, week, month, total = self.session.execute(self.counts).one()
-        return dict(zip(STATUSES, (late, week, month, total - late - week - month), strict=True))
+        row = self.session.execute(self.counts).one()
+        return {s: int(v) for s, v in zip(STATUSES, row, strict=True)}
 
     def items(self) -> list[DueItem]:
         return [_item(r, self.today) for r in self.session.execute(self.ordered)]
