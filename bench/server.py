@@ -74,11 +74,11 @@ def main() -> None:
     ap.add_argument("--port", type=int, required=True)
     ap.add_argument("--threads", type=int, default=8)
     args = ap.parse_args()
-    from waitress import serve
+    from riskreg.web import serve  # as `riskreg serve` does
 
     app = make_app(args.db)
     print(f"serving on {args.host}:{args.port}", flush=True)
-    serve(app, host=args.host, port=args.port, threads=args.threads, ident="riskreg", _quiet=True)
+    serve(app, host=args.host, port=args.port, threads=args.threads, _quiet=True)
 
 
 if __name__ == "__main__":

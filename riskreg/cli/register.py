@@ -90,13 +90,11 @@ def init_cmd(db: str | None, admin_email: str | None, no_admin: bool) -> None:
 
 
 def _serve(db_url: str, host: str, port: int) -> None:
-    from waitress import serve
-
-    from riskreg import create_app
+    from riskreg.web import create_app, serve
 
     app = create_app({"DATABASE_URL": db_url})
     click.echo(f"Serving riskreg at http://{host}:{port}/  (Ctrl+C stops it)")
-    serve(app, host=host, port=port, threads=8, ident="riskreg")
+    serve(app, host=host, port=port)
 
 
 @cli.command("serve")
