@@ -715,7 +715,8 @@ class Modification(Base):
 class DueItemRow(Base):
     """A due item as :mod:`riskreg.services.due` last worked it out: a derived copy,
     kept current by a session hook on every write that touches what it is computed from
-    and worked out again for a whole site on the first read of each day. Not audited,
+    and, for the kinds that depend on the day, worked out again for the whole site on
+    the first read of each day. Not audited,
     not exported: it can always be computed again from the register."""
 
     __tablename__ = "due_item"

@@ -14,8 +14,8 @@ number of duties and of runs of working days) with every value bound, so SQLAlch
 compiles it once; ``tests/services`` and ``tests/web`` check its items.
 
 The pages read the items from a stored copy of that query's result (``due_item``),
-kept exact by session hooks and worked out again for a whole site on the first read
-of each day: see "the stored items" below; ``tests/services/test_due_store.py``
+kept exact by session hooks, the kinds that depend on the day worked out again for
+the whole site on the first read of each day: see "the stored items" below; ``tests/services/test_due_store.py``
 checks the copy against the query after every kind of write.
 """
 
